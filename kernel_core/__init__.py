@@ -1,0 +1,46 @@
+"""rankfold: association between ordered categorical variables.
+
+The computation core: ordered tables, concordance-based measures with standard errors and
+tests, and category merging. It depends on numpy, pandas and scipy only; the notebook explorer
+lives in :mod:`rankfold.widgets` and is imported only when :func:`explore` is first used.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+from .concordance import cell_concordance, pair_counts
+from .counting import table, table_from_counts
+from .diagnostics import Diagnostics
+from .independence import PermutationResult
+from .measure_table import measure_label
+from .ordinal_table import OrdinalTable
+from .steps import ExcludeStep, MergeStep, OrderStep, apply_steps
+
+__version__ = "0.1.0"
+
+__all__ = [
+    "Diagnostics",
+    "ExcludeStep",
+    "MergeStep",
+    "OrderStep",
+    "OrdinalTable",
+    "PermutationResult",
+    "apply_steps",
+    "cell_concordance",
+    "explore",
+    "measure_label",
+    "pair_counts",
+    "table",
+    "table_from_counts",
+]
+
+
+def __getattr__(name: str) -> Any:
+    # The explorer needs ipywidgets and altair; import it only on first use so the core stays
+    # usable (and light) in scripts and distributed jobs.
+    if name == "explore":
+        from .widgets import explore
+
+        return explore
+    raise AttributeError(f"module 'rankfold' has no attribute {name!r}")

@@ -1,0 +1,407 @@
+"""Build ordered tables from a pandas DataFrame or from a ready array of counts."""
+
+from __future__ import annotations
+
+from collections.abc import Hashable, Mapping, Sequence
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+
+from .ordinal_table import Origin, OrdinalTable
+from .steps import ExcludeStep, OrderStep, Step
+
+__all__ = ["table", "table_from_counts", "MAX_NUMERIC_LEVELS", "MISSING_LABEL"]
+
+MAX_NUMERIC_LEVELS = 30
+MISSING_LABEL = "(missing)"
+
+
+def _python_scalar(value: Hashable) -> Hashable:
+    """numpy scalars -> Python scalars, so labels print and compare plainly."""
+    return value.item() if isinstance(value, np.generic) else value
+
+
+@dataclass(frozen=True)
+class CodedColumn:
+    """A column turned into category positions (-1 where dropped)."""
+
+    codes: np.ndarray
+    labels: tuple
+    n_missing: int
+    n_excluded: int
+    steps: tuple[Step, ...]
+
+
+def _order_help(name: str, found: Sequence[Hashable]) -> str:
+    shown = [_python_scalar(x) for x in found][:12]
+    return (
+        f"order={{{name!r}: {shown!r}}} (listing the categories from lowest to highest), or "
+        f"convert the column to an ordered pandas Categorical"
+    )
+
+
+def code_column(
+    series: pd.Series,
+    name: str,
+    axis: str,
+    order: Sequence[Hashable] | None,
+    exclude: Sequence[Hashable] | None,
+    dropna: bool,
+    nominal: bool = False,
+) -> CodedColumn:
+    """Map one column to category positions following the ordering rules of :func:`table`.
+
+    Parameters
+    ----------
+    series : pandas.Series
+        The raw column (not modified).
+    name : str
+        Its name, for messages and steps.
+    axis : str
+        ``"rows"``, ``"cols"`` or ``"layers"``.
+    order, exclude : sequence of labels, optional
+        As in :func:`table`.
+    dropna : bool
+        Drop missing values (True) or keep them as a last category labelled ``"(missing)"``.
+    nominal : bool
+        A layer variable needs no order: labels then follow the categorical order, numeric
+        order, or sorted text.
+
+    Returns
+    -------
+    CodedColumn
+    """
+    if isinstance(series.dtype, pd.CategoricalDtype):
+        codes = np.asarray(series.cat.codes, dtype=np.int64)
+        uniques = [_python_scalar(x) for x in series.cat.categories]
+        declared = bool(series.cat.ordered)
+        numeric = False
+    else:
+        codes, uniques_index = pd.factorize(series, use_na_sentinel=True)
+        codes = np.asarray(codes, dtype=np.int64)
+        uniques = [_python_scalar(x) for x in uniques_index]
+        declared = False
+        numeric = pd.api.types.is_numeric_dtype(series.dtype) or pd.api.types.is_bool_dtype(
+            series.dtype
+        )
+    excluded = list(exclude or [])
+    unknown_excluded = [x for x in excluded if x not in set(uniques) | set(order or [])]
+    if unknown_excluded:
+        raise ValueError(
+            f"exclude lists {unknown_excluded} for {name!r}, but the column has no such value; "
+            f"its values are {uniques[:20]}."
+        )
+    steps: list[Step] = []
+    if excluded:
+        steps.append(ExcludeStep(axis=axis, variable=name, labels=tuple(excluded)))
+    remaining = [x for x in uniques if x not in set(excluded)]
+    if order is not None:
+        order = [_python_scalar(x) for x in order]
+        if len(set(order)) != len(order):
+            raise ValueError(f"order for {name!r} lists a category twice: {order}.")
+        observed = set(np.unique(codes[codes >= 0])) if len(codes) else set()
+        absent = [u for k, u in enumerate(uniques) if k in observed and u not in set(order)
+                  and u not in set(excluded)]
+        if absent:
+            raise ValueError(
+                f"order for {name!r} leaves out values found in the column: {absent}. "
+                "Add them to order= at their place, or list them in exclude=."
+            )
+        labels = [x for x in order if x not in set(excluded)]
+        origin = "given"
+    elif declared:
+        labels, origin = remaining, "declared"
+    elif numeric:
+        present = [u for k, u in enumerate(uniques) if u in set(remaining)]
+        if len(present) > MAX_NUMERIC_LEVELS and not nominal:
+            raise ValueError(
+                f"Column {name!r} is numeric with {len(present)} distinct values; rankfold "
+                f"tabulates at most {MAX_NUMERIC_LEVELS}. Group it into ordered bands first, "
+                f"e.g. pd.cut(df[{name!r}], bins=5) or pd.qcut(df[{name!r}], q=5), and pass "
+                "the banded column."
+            )
+        labels, origin = sorted(present), "numeric"
+    elif nominal:
+        labels, origin = sorted(remaining, key=str), "sorted"
+    else:
+        raise ValueError(
+            f"Column {name!r} has no order rankfold can trust (found categories "
+            f"{[_python_scalar(x) for x in remaining][:12]}). Tell it the order with "
+            + _order_help(name, remaining)
+            + "."
+        )
+    position = {label: k for k, label in enumerate(labels)}
+    lookup = np.array([position.get(u, -1) for u in uniques] + [-1], dtype=np.int64)
+    missing_mask = codes < 0
+    n_missing = int(missing_mask.sum())
+    new_codes = lookup[np.where(missing_mask, len(uniques), codes)]
+    n_excluded = int(((new_codes < 0) & ~missing_mask).sum())
+    if not dropna and n_missing:
+        if MISSING_LABEL in position:
+            raise ValueError(
+                f"Column {name!r} already has a category {MISSING_LABEL!r}; fill missing values "
+                "with another label yourself, or use dropna=True."
+            )
+        labels = [*labels, MISSING_LABEL]
+        new_codes = np.where(missing_mask, len(labels) - 1, new_codes)
+        n_missing = 0
+    steps.append(OrderStep(axis=axis, variable=name, labels=tuple(labels), origin=origin))
+    return CodedColumn(new_codes, tuple(labels), n_missing, n_excluded, tuple(steps))
+
+
+def _check_frame(data: object, columns: Sequence[str | None]) -> pd.DataFrame:
+    if not isinstance(data, pd.DataFrame):
+        raise ValueError(
+            f"rankfold.table takes a pandas DataFrame; got {type(data).__name__}. Build one with "
+            "pandas.DataFrame(...), or use rankfold.table_from_counts for a ready table of counts."
+        )
+    absent = [c for c in columns if c is not None and c not in data.columns]
+    if absent:
+        raise ValueError(
+            f"Column(s) {absent} not in the DataFrame; its columns are {list(data.columns)}."
+        )
+    named = [c for c in columns if c is not None]
+    if len(set(named)) != len(named):
+        raise ValueError(f"Each role needs its own column; got {named}.")
+    return data
+
+
+def _weights(data: pd.DataFrame, weight: str) -> np.ndarray:
+    values = pd.to_numeric(data[weight], errors="coerce").to_numpy(dtype=float)
+    bad_nan = int(np.isnan(values).sum())
+    bad_inf = int(np.isinf(values).sum())
+    bad_neg = int((values < 0).sum())
+    if bad_nan or bad_inf or bad_neg:
+        problems = [
+            f"{k} {what}" for k, what in ((bad_nan, "missing or non-numeric"), (bad_inf, "infinite"),
+                                          (bad_neg, "negative")) if k
+        ]
+        raise ValueError(
+            f"Weight column {weight!r} has {', '.join(problems)} value(s) in "
+            f"{bad_nan + bad_inf + bad_neg} row(s). Weights must be finite and >= 0 (zero is "
+            "allowed): fix or drop those rows before tabulating."
+        )
+    return values
+
+
+def table(
+    data: pd.DataFrame,
+    row: str,
+    col: str,
+    *,
+    layer: str | None = None,
+    weight: str | None = None,
+    weight_kind: str = "frequency",
+    order: Mapping[str, Sequence[Hashable]] | None = None,
+    exclude: Mapping[str, Sequence[Hashable]] | None = None,
+    dropna: bool = True,
+) -> OrdinalTable:
+    """Cross-tabulate two ordered variables of a DataFrame.
+
+    Parameters
+    ----------
+    data : pandas.DataFrame
+        The records; never modified or copied.
+    row, col : str
+        Names of the row and column variables.
+    layer : str, optional
+        A third variable to hold fixed: one table per category (may be nominal).
+    weight : str, optional
+        A column of non-negative weights.
+    weight_kind : {'frequency', 'sampling'}
+        ``"frequency"``: each record stands for ``w`` identical units (results equal those on
+        the expanded records). ``"sampling"``: survey weights; estimates use the weighted
+        table and standard errors are Taylor-linearised, treating the records as a
+        with-replacement single-stage sample (no clusters or strata).
+    order : dict, optional
+        ``{column: [labels from lowest to highest]}``; overrides any other order.
+    exclude : dict, optional
+        ``{column: [labels]}`` of non-substantive answers to leave out before counting.
+    dropna : bool
+        Drop records with a missing value (default; the number is kept as
+        ``table.n_missing``), or keep missing values as a last category ``"(missing)"``.
+
+    Returns
+    -------
+    OrdinalTable
+
+    Notes
+    -----
+    Order rules: an ordered pandas Categorical keeps its order; numeric and boolean columns
+    use numeric order (at most 30 distinct values); text needs ``order=``. Categories with no
+    units keep their place. Counting maps each column to category positions and counts
+    position pairs with :func:`numpy.bincount`, so the frame is never copied.
+
+    Examples
+    --------
+    >>> import pandas as pd, rankfold
+    >>> df = pd.DataFrame({"dose": [1, 1, 2, 2, 3], "relief": ["low", "mid", "mid", "high", "high"]})
+    >>> t = rankfold.table(df, "dose", "relief", order={"relief": ["low", "mid", "high"]})
+    >>> t.counts.to_numpy().tolist()
+    [[1, 1, 0], [0, 1, 1], [0, 0, 1]]
+    """
+    _check_frame(data, [row, col, layer, weight])
+    if weight_kind not in ("frequency", "sampling"):
+        raise ValueError(f"weight_kind must be 'frequency' or 'sampling'; got {weight_kind!r}.")
+    if weight_kind == "sampling" and weight is None:
+        raise ValueError("weight_kind='sampling' needs a weight column: pass weight='your_column'.")
+    order = dict(order or {})
+    exclude = dict(exclude or {})
+    for key, what in ((order, "order"), (exclude, "exclude")):
+        stray = [k for k in key if k not in (row, col, layer)]
+        if stray:
+            raise ValueError(f"{what}= names {stray}, which are not among row, col or layer.")
+        for k, v in key.items():
+            if isinstance(v, (str, bytes)) or not isinstance(v, Sequence):
+                raise ValueError(f"{what}[{k!r}] must be a list of labels; got {v!r}.")
+    coded = {
+        role: code_column(data[name], name, axis, order.get(name), exclude.get(name), dropna,
+                          nominal=(role == "layer"))
+        for role, name, axis in (("row", row, "rows"), ("col", col, "cols"), ("layer", layer, "layers"))
+        if name is not None
+    }
+    r, c = coded["row"], coded["col"]
+    n_i, n_j = len(r.labels), len(c.labels)
+    flat = r.codes * n_j + c.codes
+    valid = (r.codes >= 0) & (c.codes >= 0)
+    n_k = 1
+    if layer is not None:
+        lay = coded["layer"]
+        n_k = len(lay.labels)
+        flat = lay.codes * (n_i * n_j) + flat
+        valid &= lay.codes >= 0
+    all_dropped = ~valid
+    keep = None if valid.all() else valid
+    cells_flat = flat if keep is None else flat[keep]
+    size = n_k * n_i * n_j
+    squared = records = None
+    if weight is None:
+        cells = np.bincount(cells_flat, minlength=size).astype(np.int64)
+    else:
+        w = _weights(data, weight)
+        w = w if keep is None else w[keep]
+        cells = np.bincount(cells_flat, weights=w, minlength=size)
+        if weight_kind == "frequency" and np.all(np.mod(w, 1) == 0):
+            cells = np.rint(cells).astype(np.int64)
+        if weight_kind == "sampling":
+            squared = np.bincount(cells_flat, weights=w * w, minlength=size).reshape(n_k, n_i, n_j)
+            layer_codes = (cells_flat // (n_i * n_j))
+            records = np.bincount(layer_codes, minlength=n_k).astype(np.int64)
+    missing_any = np.zeros(len(data), dtype=bool)
+    excluded_any = np.zeros(len(data), dtype=bool)
+    for coded_col, name in ((r, row), (c, col), (coded.get("layer"), layer)):
+        if coded_col is None:
+            continue
+        raw_missing = data[name].isna().to_numpy() if dropna else np.zeros(len(data), dtype=bool)
+        missing_any |= raw_missing
+        excluded_any |= (coded_col.codes < 0) & ~raw_missing
+    n_missing = int((missing_any & all_dropped).sum())
+    n_excluded = int((excluded_any & ~missing_any).sum())
+    steps = r.steps + c.steps + (coded["layer"].steps if layer is not None else ())
+    origin = Origin(
+        "frame",
+        {"row": row, "col": col, "layer": layer, "weight": weight, "weight_kind": weight_kind,
+         "order": order, "exclude": exclude, "dropna": dropna},
+    )
+    return OrdinalTable(
+        cells=cells.reshape(n_k, n_i, n_j),
+        row_name=row,
+        col_name=col,
+        row_labels=r.labels,
+        col_labels=c.labels,
+        steps=steps,
+        n_missing=n_missing,
+        n_excluded=n_excluded,
+        layer_name=layer,
+        layer_labels=coded["layer"].labels if layer is not None else (None,),
+        weight=weight,
+        weight_kind=weight_kind if weight is not None else None,
+        squared_weights=squared,
+        records=records,
+        origin=origin,
+        initial_steps=len(steps),
+    )
+
+
+def table_from_counts(
+    counts: object,
+    row_labels: Sequence[Hashable] | None = None,
+    col_labels: Sequence[Hashable] | None = None,
+    *,
+    row_name: str = "row",
+    col_name: str = "col",
+) -> OrdinalTable:
+    """An ordered table from a ready 2-D array of counts.
+
+    Parameters
+    ----------
+    counts : array_like, shape (I, J)
+        Non-negative finite counts, rows and columns in their order. Non-integer values are
+        allowed (weighted totals); they are then treated as multinomial counts.
+    row_labels, col_labels : sequence, optional
+        Category labels; default 1..I and 1..J. A pandas DataFrame supplies its own index
+        and columns (and names) when these are not given.
+    row_name, col_name : str
+        Variable names.
+
+    Returns
+    -------
+    OrdinalTable
+
+    Examples
+    --------
+    >>> import rankfold
+    >>> t = rankfold.table_from_counts([[10, 5], [3, 12]])
+    >>> round(float(t.measures().loc["gamma", "estimate"]), 4)
+    0.7778
+    """
+    if isinstance(counts, pd.DataFrame):
+        row_labels = list(counts.index) if row_labels is None else row_labels
+        col_labels = list(counts.columns) if col_labels is None else col_labels
+        if row_name == "row" and counts.index.name is not None:
+            row_name = str(counts.index.name)
+        if col_name == "col" and counts.columns.name is not None:
+            col_name = str(counts.columns.name)
+        counts = counts.to_numpy()
+    try:
+        array = np.asarray(counts, dtype=float)
+    except (TypeError, ValueError) as err:
+        raise ValueError(f"counts must be a 2-D array of numbers; could not read it ({err}).") from err
+    if array.ndim != 2:
+        raise ValueError(f"counts must be 2-D (rows x columns); got shape {array.shape}.")
+    if array.size == 0:
+        raise ValueError(f"counts is empty (shape {array.shape}); a table needs at least one cell.")
+    if not np.all(np.isfinite(array)):
+        raise ValueError("counts contains NaN or infinite values; every cell must be a finite count.")
+    if (array < 0).any():
+        bad = np.argwhere(array < 0)[0].tolist()
+        raise ValueError(f"counts must be non-negative; cell {bad} is {array[tuple(bad)]}.")
+    if np.all(np.mod(array, 1) == 0) and array.max(initial=0) < 2**62:
+        array = array.astype(np.int64)
+    n_i, n_j = array.shape
+    rows = tuple(_python_scalar(x) for x in (row_labels if row_labels is not None else range(1, n_i + 1)))
+    cols = tuple(_python_scalar(x) for x in (col_labels if col_labels is not None else range(1, n_j + 1)))
+    if len(rows) != n_i or len(cols) != n_j:
+        raise ValueError(
+            f"Label counts do not match the table: {n_i} x {n_j} counts, {len(rows)} row labels, "
+            f"{len(cols)} column labels."
+        )
+    for labels, what in ((rows, "row"), (cols, "column")):
+        if len(set(labels)) != len(labels):
+            raise ValueError(f"The {what} labels are not distinct: {list(labels)}.")
+    steps = (
+        OrderStep("rows", row_name, rows, "given"),
+        OrderStep("cols", col_name, cols, "given"),
+    )
+    return OrdinalTable(
+        cells=array[None, :, :],
+        row_name=row_name,
+        col_name=col_name,
+        row_labels=rows,
+        col_labels=cols,
+        steps=steps,
+        origin=Origin("counts", {"cells": array.tolist(), "row_labels": rows, "col_labels": cols,
+                                 "row_name": row_name, "col_name": col_name}),
+        initial_steps=len(steps),
+    )

@@ -1,0 +1,128 @@
+"""Cell-level diagnostics: expected counts, adjusted residuals, pair contributions, sparseness."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+
+from .concordance import cell_concordance
+
+__all__ = ["Diagnostics", "diagnose", "sparse_cell_figures"]
+
+
+def sparse_cell_figures(expected: np.ndarray) -> dict[str, np.ndarray]:
+    """Share of cells with expected count below 5 and the smallest expected count.
+
+    Parameters
+    ----------
+    expected : ndarray, shape (..., I, J)
+        Expected counts under independence; a batch is allowed.
+
+    Returns
+    -------
+    dict
+        ``share_expected_below_5`` and ``min_expected``, each of the batch shape.
+
+    Notes
+    -----
+    These are the inputs of Cochran's rule for the chi-square approximation: no expected count
+    below 1 and at most 20% below 5 (Cochran 1954, Biometrics 10:417-451).
+    """
+    expected = np.asarray(expected, dtype=float)
+    return {
+        "share_expected_below_5": (expected < 5).mean(axis=(-2, -1)),
+        "min_expected": expected.min(axis=(-2, -1)),
+    }
+
+
+@dataclass(frozen=True)
+class Diagnostics:
+    """Cell diagnostics of a table; every frame has the table's labels.
+
+    Attributes
+    ----------
+    expected : DataFrame
+        ``m_ij = n_i+ n_+j / n``, counts expected under independence.
+    adjusted_residuals : DataFrame
+        ``(n_ij - m_ij) / sqrt(m_ij (1 - p_i+) (1 - p_+j))`` (Haberman 1973, Biometrics 29:205),
+        approximately standard normal under independence; NaN in empty rows or columns.
+    pair_contribution : DataFrame
+        ``n_ij (C_ij - D_ij)``: the cell's share of ``P - Q`` (ordered pairs), so the frame
+        sums to ``P - Q``. Positive cells push the ordinal measures up.
+    share_expected_below_5, min_expected : float
+        Sparse-cell figures over the non-empty rows and columns (Cochran 1954).
+    zero_cells : int
+        Cells with no units, within the non-empty rows and columns.
+    warnings : tuple of str
+        Plain-language warnings when Cochran's rule fails.
+    """
+
+    expected: pd.DataFrame
+    adjusted_residuals: pd.DataFrame
+    pair_contribution: pd.DataFrame
+    share_expected_below_5: float
+    min_expected: float
+    zero_cells: int
+    warnings: tuple[str, ...]
+
+    @property
+    def sources(self) -> dict[str, str]:
+        """Where each figure comes from."""
+        return {
+            "expected": "independence model (Pearson 1900; common practice)",
+            "adjusted_residuals": "Haberman (1973), Biometrics 29:205-220",
+            "pair_contribution": "Goodman & Kruskal (1954) pair counts, per cell",
+            "share_expected_below_5": "Cochran (1954), Biometrics 10:417-451",
+            "min_expected": "Cochran (1954), Biometrics 10:417-451",
+            "zero_cells": "common practice",
+        }
+
+
+def diagnose(counts: pd.DataFrame) -> Diagnostics:
+    """Cell diagnostics of a table of counts with labelled rows and columns.
+
+    Parameters
+    ----------
+    counts : pandas.DataFrame
+        The table (as in :attr:`OrdinalTable.counts`).
+
+    Returns
+    -------
+    Diagnostics
+    """
+    n = counts.to_numpy(dtype=float)
+    total = n.sum()
+    rows, cols = n.sum(axis=1), n.sum(axis=0)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        expected = np.outer(rows, cols) / total if total > 0 else np.zeros_like(n)
+        scale = np.sqrt(expected * np.outer(1 - rows / total, 1 - cols / total))
+        residuals = np.where(scale > 0, (n - expected) / np.where(scale > 0, scale, 1), np.nan)
+    conc, disc = cell_concordance(n)
+    keep = np.outer(rows > 0, cols > 0)
+    inner = expected[keep]
+    if inner.size:
+        share = float((inner < 5).mean())
+        smallest = float(inner.min())
+        zeros = int((n[keep] == 0).sum())
+    else:
+        share, smallest, zeros = np.nan, np.nan, 0
+    warnings = []
+    if inner.size and (share > 0.2 or smallest < 1):
+        warnings.append(
+            f"{share:.0%} of cells have an expected count below 5 and the smallest is "
+            f"{smallest:.2f}: Cochran's rule (none below 1, at most 20% below 5) is not met, so "
+            "large-sample p-values and intervals may be unreliable; consider merging sparse "
+            "neighbouring categories by a rule fixed in advance, or the permutation test."
+        )
+    like = dict(index=counts.index, columns=counts.columns)
+    return Diagnostics(
+        expected=pd.DataFrame(expected, **like),
+        adjusted_residuals=pd.DataFrame(residuals, **like),
+        pair_contribution=pd.DataFrame(n * (conc - disc), **like),
+        share_expected_below_5=share,
+        min_expected=smallest,
+        zero_cells=zeros,
+        warnings=tuple(warnings),
+    )

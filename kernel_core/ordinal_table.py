@@ -1,0 +1,470 @@
+"""The immutable ordered contingency table and its coding operations."""
+
+from __future__ import annotations
+
+from collections.abc import Hashable, Sequence
+from dataclasses import dataclass, field, replace
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from .concordance import pair_counts
+from .diagnostics import Diagnostics, diagnose
+from .independence import PermutationResult, permutation_test, tests_frame
+from .measure_table import measures_frame
+from .ordinal_measures import Sampling
+from .steps import ExcludeStep, MergeStep, OrderStep, Step, merged_label
+
+__all__ = ["OrdinalTable"]
+
+AXIS_NAMES = {"rows": 1, "cols": 2}
+
+
+def _check_axis(axis: str) -> int:
+    if axis not in AXIS_NAMES:
+        raise ValueError(f"axis must be 'rows' or 'cols'; got {axis!r}.")
+    return AXIS_NAMES[axis]
+
+
+def label_literal(label: Hashable) -> str:
+    """Python source that evaluates to ``label`` (pandas Intervals included)."""
+    if isinstance(label, pd.Interval):
+        return f"pd.Interval({label.left!r}, {label.right!r}, closed={label.closed!r})"
+    return repr(label)
+
+
+def _list_literal(labels: Sequence[Hashable]) -> str:
+    return "[" + ", ".join(label_literal(x) for x in labels) + "]"
+
+
+@dataclass(frozen=True)
+class Origin:
+    """How a table was first built, so :meth:`OrdinalTable.to_code` can rebuild it."""
+
+    kind: str  # "frame" or "counts"
+    arguments: dict[str, Any] = field(default_factory=dict)
+
+
+@dataclass(frozen=True, eq=False)
+class OrdinalTable:
+    """An ordered two-way table of counts (optionally one per layer), immutable.
+
+    Build one with :func:`rankfold.table` or :func:`rankfold.table_from_counts`; every coding
+    operation (:meth:`merge`, :meth:`exclude`, :meth:`reorder`) returns a new table and
+    records a step.
+
+    Attributes
+    ----------
+    row_name, col_name : str
+        Variable names.
+    row_labels, col_labels : tuple
+        Category labels in order.
+    steps : tuple
+        Every order, exclusion and merge applied, oldest first.
+    n_missing, n_excluded : int
+        Data rows dropped while counting because a value was missing, or in an excluded
+        category (0 for tables built from counts).
+    layer_name : str or None, layer_labels : tuple
+        The layer variable and its categories (a single unnamed layer when there is none).
+    weight, weight_kind : str or None
+        The weight column and whether its weights are ``"frequency"`` or ``"sampling"``.
+    """
+
+    cells: np.ndarray  # (K, I, J) counts or sums of weights
+    row_name: str
+    col_name: str
+    row_labels: tuple
+    col_labels: tuple
+    steps: tuple[Step, ...] = ()
+    n_missing: int = 0
+    n_excluded: int = 0
+    layer_name: str | None = None
+    layer_labels: tuple = (None,)
+    weight: str | None = None
+    weight_kind: str | None = None
+    squared_weights: np.ndarray | None = None  # (K, I, J) when weight_kind == "sampling"
+    records: np.ndarray | None = None  # (K,) data rows per layer when weight_kind == "sampling"
+    origin: Origin = field(default_factory=lambda: Origin("counts"))
+    initial_steps: int = 0
+
+    def __post_init__(self) -> None:
+        for name in ("cells", "squared_weights", "records"):
+            value = getattr(self, name)
+            if value is not None:
+                value = np.array(value)
+                value.setflags(write=False)
+                object.__setattr__(self, name, value)
+
+    # ----------------------------------------------------------------- views of the counts
+    @property
+    def counts(self) -> pd.DataFrame:
+        """The table (pooled over layers) with ordered labels as index and columns."""
+        return pd.DataFrame(
+            self.cells.sum(axis=0),
+            index=pd.Index(list(self.row_labels), name=self.row_name, dtype=object),
+            columns=pd.Index(list(self.col_labels), name=self.col_name, dtype=object),
+        )
+
+    @property
+    def n(self) -> int | float:
+        """Total count (sum of weights for a weighted table)."""
+        total = self.cells.sum()
+        return int(total) if np.issubdtype(self.cells.dtype, np.integer) else float(total)
+
+    @property
+    def shape(self) -> tuple[int, int]:
+        """Number of row and column categories."""
+        return len(self.row_labels), len(self.col_labels)
+
+    def _pooled(self) -> np.ndarray:
+        return self.cells.sum(axis=0)
+
+    def _sampling(self) -> Sampling:
+        if self.squared_weights is None:
+            return Sampling()
+        return Sampling(self.squared_weights.sum(axis=0), np.asarray(self.records).sum())
+
+    # ----------------------------------------------------------------------- statistics
+    def pairs(self) -> dict[str, int | float]:
+        """Counts of concordant, discordant and tied pairs of units.
+
+        Returns
+        -------
+        dict
+            See :func:`rankfold.concordance.pair_counts`; exact Python integers when the counts
+            are whole numbers.
+        """
+        return pair_counts(self._pooled())
+
+    def measures(self, confidence: float = 0.95) -> pd.DataFrame:
+        """Ordinal (and, for contrast, nominal) measures of association with inference.
+
+        Parameters
+        ----------
+        confidence : float
+            Confidence level of the intervals.
+
+        Returns
+        -------
+        pandas.DataFrame
+            Indexed by measure key: ``gamma``, ``somers_d_col_given_row``,
+            ``somers_d_row_given_col``, ``somers_d_symmetric``, ``tau_b``, ``tau_c``,
+            ``spearman_rho``, ``cramers_v`` and, for 2 x 2 tables, ``odds_ratio``,
+            ``yules_q``, ``yules_y``, ``risk_difference``, ``relative_risk``. Columns
+            ``estimate, std_error, ci_low, ci_high, std_error_null, z, p_value, note``.
+
+        Notes
+        -----
+        ``std_error`` is the delta-method asymptotic standard error and the interval is
+        ``estimate +/- z_(1-alpha/2) std_error`` clipped to the measure's range;
+        ``std_error_null`` is the standard error under independence, ``z`` = estimate /
+        ``std_error_null`` and ``p_value`` is two-sided normal. Formulas and sources are in
+        :func:`rankfold.ordinal_measures.ordinal_measure_arrays`; undefined measures are NaN
+        with the reason in ``note``. An association is not evidence of a cause, and choosing
+        a coding because it gives the strongest value inflates false findings.
+
+        References
+        ----------
+        Agresti, A. (2010). Analysis of Ordinal Categorical Data, 2nd ed., Wiley, ch. 7.
+        """
+        chi_p = self.tests().loc["pearson_chi_square", "p_value"]
+        frame = measures_frame(
+            self._pooled(), sampling=self._sampling(), confidence=confidence, chi_square_p=chi_p
+        )
+        if self.weight_kind == "sampling":
+            squared = self.squared_weights.sum()
+            kish = float(self.cells.sum() ** 2 / squared) if squared > 0 else float("nan")
+            extra = (
+                f"sampling weights: Taylor-linearised errors, rows as a with-replacement sample; "
+                f"Kish effective n = {kish:.1f}"
+            )
+            frame["note"] = [f"{x}; {extra}" if x else extra for x in frame["note"]]
+        return frame
+
+    def tests(self, scores: str | Sequence[Sequence[float]] | None = None) -> pd.DataFrame:
+        """Tests of independence: Pearson chi-square, likelihood ratio, linear-by-linear.
+
+        Parameters
+        ----------
+        scores : {'positions', 'midranks'} or (row_scores, col_scores), optional
+            Category scores of the linear-by-linear test (default: positions 1, 2, ...).
+
+        Returns
+        -------
+        pandas.DataFrame
+            See :func:`rankfold.independence.tests_frame`.
+        """
+        return tests_frame(self._pooled(), scores)
+
+    def permutation_test(
+        self,
+        measure: str = "gamma",
+        n_resamples: int = 9999,
+        seed: int | np.random.Generator | None = None,
+    ) -> PermutationResult:
+        """Monte Carlo permutation p-value of a measure with both margins fixed.
+
+        See :func:`rankfold.independence.permutation_test`.
+        """
+        return permutation_test(self._pooled(), measure, n_resamples, seed)
+
+    def diagnostics(self) -> Diagnostics:
+        """Expected counts, adjusted residuals, pair contributions and sparse-cell figures."""
+        return diagnose(self.counts)
+
+    # --------------------------------------------------------------------- coding steps
+    def _labels(self, axis: int) -> tuple:
+        return self.row_labels if axis == 1 else self.col_labels
+
+    def _variable(self, axis: int) -> str:
+        return self.row_name if axis == 1 else self.col_name
+
+    def _with_axis(self, axis: int, labels: tuple, index: list[list[int]], step: Step) -> OrdinalTable:
+        """New table whose category k on ``axis`` sums old categories ``index[k]``."""
+        def regroup(cells: np.ndarray | None) -> np.ndarray | None:
+            if cells is None:
+                return None
+            parts = [np.take(cells, idx, axis=axis).sum(axis=axis) for idx in index]
+            if not parts:
+                shape = list(cells.shape)
+                shape[axis] = 0
+                return np.zeros(shape, dtype=cells.dtype)
+            return np.stack(parts, axis=axis)
+
+        key = "row_labels" if axis == 1 else "col_labels"
+        return replace(
+            self,
+            cells=regroup(self.cells),
+            squared_weights=regroup(self.squared_weights),
+            steps=(*self.steps, step),
+            **{key: labels},
+        )
+
+    def _positions(self, axis: int, labels: Sequence[Hashable], what: str) -> list[int]:
+        current = self._labels(axis)
+        where = {label: k for k, label in enumerate(current)}
+        missing = [x for x in labels if x not in where]
+        if missing:
+            raise ValueError(
+                f"Cannot {what}: {missing} not among the {self._variable(axis)!r} categories "
+                f"{list(current)}."
+            )
+        if len(set(labels)) != len(labels):
+            raise ValueError(f"Cannot {what}: a label is given twice in {list(labels)}.")
+        return [where[x] for x in labels]
+
+    def merge(
+        self,
+        axis: str,
+        groups: Sequence[Sequence[Hashable]],
+        labels: Sequence[Hashable] | None = None,
+    ) -> OrdinalTable:
+        """Merge groups of adjacent categories into one category each.
+
+        Parameters
+        ----------
+        axis : {'rows', 'cols'}
+            Which variable to recode.
+        groups : sequence of sequences of labels
+            Each group lists neighbouring categories to merge; categories in no group stay
+            as they are.
+        labels : sequence, optional
+            New label for each group; default ``"first–last"``.
+
+        Returns
+        -------
+        OrdinalTable
+            A new table; the counts of a merged category are the sums of its members.
+
+        Raises
+        ------
+        ValueError
+            If a label is unknown or used twice, or a group is not a run of neighbours in the
+            order (merging non-neighbours would break the order).
+        """
+        ax = _check_axis(axis)
+        current = self._labels(ax)
+        if isinstance(groups, (str, bytes)) or not all(
+            isinstance(g, Sequence) and not isinstance(g, (str, bytes)) for g in groups
+        ):
+            raise ValueError(
+                "groups must be a list of lists of labels, e.g. [['agree', 'strongly agree']]."
+            )
+        flat = [x for g in groups for x in g]
+        self._positions(ax, flat, "merge")
+        if labels is not None and len(labels) != len(groups):
+            raise ValueError(f"Give one label per group: {len(groups)} groups, {len(labels)} labels.")
+        owner: dict[int, int] = {}
+        for k, group in enumerate(groups):
+            pos = sorted(self._positions(ax, list(group), "merge"))
+            if not pos:
+                raise ValueError("A merge group is empty; every group needs at least one label.")
+            if pos != list(range(pos[0], pos[-1] + 1)):
+                raise ValueError(
+                    f"Cannot merge {list(group)}: they are not neighbours in the order of "
+                    f"{self._variable(ax)!r} ({list(current)}). Merging categories that are not "
+                    "adjacent would break the ordering; reorder first if the order is wrong."
+                )
+            for p in pos:
+                owner[p] = k
+        new_groups: list[list[int]] = []
+        new_labels: list[Hashable] = []
+        k = 0
+        while k < len(current):
+            if k in owner:
+                g = owner[k]
+                members = [p for p in range(len(current)) if owner.get(p) == g]
+                new_groups.append(members)
+                chosen = labels[g] if labels is not None else None
+                new_labels.append(
+                    chosen if chosen is not None else merged_label([current[p] for p in members])
+                )
+                k = members[-1] + 1
+            else:
+                new_groups.append([k])
+                new_labels.append(current[k])
+                k += 1
+        if len(set(new_labels)) != len(new_labels):
+            raise ValueError(
+                f"The merged labels {new_labels} are not all distinct; pass labels= to name the groups."
+            )
+        step = MergeStep(
+            axis=axis,
+            variable=self._variable(ax),
+            groups=tuple(tuple(current[p] for p in g) for g in new_groups),
+            labels=tuple(new_labels),
+        )
+        return self._with_axis(ax, tuple(new_labels), new_groups, step)
+
+    def exclude(self, axis: str, labels: Sequence[Hashable]) -> OrdinalTable:
+        """Leave out the units in some categories (e.g. a non-substantive answer).
+
+        Parameters
+        ----------
+        axis : {'rows', 'cols'}
+            Which variable.
+        labels : sequence of labels
+            Categories to drop.
+
+        Returns
+        -------
+        OrdinalTable
+            A new table without those categories.
+        """
+        ax = _check_axis(axis)
+        if isinstance(labels, (str, bytes)):
+            labels = [labels]
+        drop = set(self._positions(ax, list(labels), "exclude"))
+        current = self._labels(ax)
+        keep = [k for k in range(len(current)) if k not in drop]
+        if not keep:
+            raise ValueError(
+                f"Excluding {list(labels)} would leave {self._variable(ax)!r} with no category."
+            )
+        step = ExcludeStep(axis=axis, variable=self._variable(ax), labels=tuple(labels))
+        return self._with_axis(ax, tuple(current[k] for k in keep), [[k] for k in keep], step)
+
+    def reorder(self, axis: str, labels: Sequence[Hashable]) -> OrdinalTable:
+        """Put the categories of one variable in a new order.
+
+        Parameters
+        ----------
+        axis : {'rows', 'cols'}
+            Which variable.
+        labels : sequence of labels
+            All current categories, in the new order.
+
+        Returns
+        -------
+        OrdinalTable
+        """
+        ax = _check_axis(axis)
+        current = self._labels(ax)
+        pos = self._positions(ax, list(labels), "reorder")
+        if len(pos) != len(current):
+            left = [x for x in current if x not in set(labels)]
+            raise ValueError(f"reorder needs every category once; missing: {left}.")
+        step = OrderStep(axis=axis, variable=self._variable(ax), labels=tuple(labels), origin="reorder")
+        return self._with_axis(ax, tuple(labels), [[p] for p in pos], step)
+
+    def transpose(self) -> OrdinalTable:
+        """The same table with rows and columns swapped (steps are kept)."""
+        def swap(cells):
+            return None if cells is None else np.swapaxes(cells, 1, 2)
+
+        return replace(
+            self,
+            cells=swap(self.cells),
+            squared_weights=swap(self.squared_weights),
+            row_name=self.col_name,
+            col_name=self.row_name,
+            row_labels=self.col_labels,
+            col_labels=self.row_labels,
+            steps=tuple(replace(s, axis="cols" if s.axis == "rows" else "rows") for s in self.steps),
+            origin=Origin("counts"),
+            initial_steps=len(self.steps),
+        )
+
+    # ------------------------------------------------------------------- reproducibility
+    def to_code(self, data_name: str = "df") -> str:
+        """Python source that rebuilds this table (and its measures) with rankfold calls.
+
+        Parameters
+        ----------
+        data_name : str
+            Name of the DataFrame variable in the reader's notebook.
+
+        Returns
+        -------
+        str
+            Code that runs as printed, given ``data_name`` bound to the original data.
+        """
+        args = self.origin.arguments
+        if self.origin.kind == "frame":
+            parts = [data_name, repr(args["row"]), repr(args["col"])]
+            for key in ("layer", "weight"):
+                if args.get(key) is not None:
+                    parts.append(f"{key}={args[key]!r}")
+            if args.get("weight_kind", "frequency") != "frequency":
+                parts.append(f"weight_kind={args['weight_kind']!r}")
+            for key in ("order", "exclude"):
+                if args.get(key):
+                    inner = ", ".join(f"{k!r}: {_list_literal(v)}" for k, v in args[key].items())
+                    parts.append(f"{key}={{{inner}}}")
+            if not args.get("dropna", True):
+                parts.append("dropna=False")
+            call = f"rankfold.table({', '.join(parts)})"
+        else:
+            counts = np.asarray(self.cells.sum(axis=0) if args.get("cells") is None else args["cells"])
+            as_list = counts.tolist()
+            call = (
+                f"rankfold.table_from_counts(\n        {as_list!r},\n"
+                f"        row_labels={_list_literal(args.get('row_labels', self.row_labels))},\n"
+                f"        col_labels={_list_literal(args.get('col_labels', self.col_labels))},\n"
+                f"        row_name={args.get('row_name', self.row_name)!r}, "
+                f"col_name={args.get('col_name', self.col_name)!r},\n    )"
+            )
+        lines = ["import pandas as pd", "import rankfold", "", "table = (", f"    {call}"]
+        for step in self.steps[self.initial_steps:]:
+            if isinstance(step, MergeStep):
+                pairs = [(g, lab) for g, lab in zip(step.groups, step.labels, strict=True) if len(g) > 1]
+                groups = "[" + ", ".join(_list_literal(g) for g, _ in pairs) + "]"
+                custom = [lab for g, lab in pairs if lab != merged_label(g)]
+                tail = f", labels={_list_literal([lab for _, lab in pairs])}" if custom else ""
+                lines.append(f"    .merge({step.axis!r}, {groups}{tail})")
+            elif isinstance(step, ExcludeStep):
+                lines.append(f"    .exclude({step.axis!r}, {_list_literal(step.labels)})")
+            else:
+                lines.append(f"    .reorder({step.axis!r}, {_list_literal(step.labels)})")
+        lines += [")", "measures = table.measures()", ""]
+        return "\n".join(lines)
+
+    def __repr__(self) -> str:
+        layer = f", layered by {self.layer_name!r} ({len(self.layer_labels)})" if self.layer_name else ""
+        weight = f", weighted by {self.weight!r} ({self.weight_kind})" if self.weight else ""
+        return (
+            f"<OrdinalTable {self.row_name!r} ({len(self.row_labels)}) x {self.col_name!r} "
+            f"({len(self.col_labels)}), n={self.n}{layer}{weight}, {len(self.steps)} steps>\n"
+            f"{self.counts!r}"
+        )

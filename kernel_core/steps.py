@@ -1,0 +1,172 @@
+"""Recorded coding steps (order, exclusion, merge) and their replay on raw columns.
+
+A table remembers every step that shaped its categories, so the same coding can be shown to a
+reader, turned back into code, and applied to the raw column for use in other analyses.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Hashable, Sequence
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+
+__all__ = ["OrderStep", "ExcludeStep", "MergeStep", "Step", "apply_steps", "merged_label"]
+
+AXES = ("rows", "cols")
+
+
+def merged_label(group: Sequence[Hashable]) -> str:
+    """Default label of a merged group: ``"first–last"`` (a single label stays as it is)."""
+    if len(group) == 1:
+        return str(group[0])
+    return f"{group[0]}–{group[-1]}"
+
+
+@dataclass(frozen=True)
+class OrderStep:
+    """The categories of ``variable`` take the order ``labels``.
+
+    ``origin`` says where the order came from: ``"declared"`` (an ordered Categorical),
+    ``"numeric"`` (sorted values), ``"given"`` (the ``order=`` argument) or ``"reorder"``
+    (a later :meth:`OrdinalTable.reorder`).
+    """
+
+    axis: str
+    variable: str
+    labels: tuple
+    origin: str
+
+    def describe(self) -> str:
+        shown = ", ".join(map(str, self.labels))
+        return f"{self.variable}: order ({self.origin}) {shown}"
+
+
+@dataclass(frozen=True)
+class ExcludeStep:
+    """Units in the categories ``labels`` of ``variable`` are left out."""
+
+    axis: str
+    variable: str
+    labels: tuple
+
+    def describe(self) -> str:
+        return f"{self.variable}: exclude {', '.join(map(str, self.labels))}"
+
+
+@dataclass(frozen=True)
+class MergeStep:
+    """Adjacent categories of ``variable`` are merged: ``groups[k]`` becomes ``labels[k]``."""
+
+    axis: str
+    variable: str
+    groups: tuple
+    labels: tuple
+
+    def describe(self) -> str:
+        parts = [
+            f"[{', '.join(map(str, g))}] -> {lab}"
+            for g, lab in zip(self.groups, self.labels, strict=True)
+            if len(g) > 1
+        ]
+        return f"{self.variable}: merge " + "; ".join(parts)
+
+
+Step = OrderStep | ExcludeStep | MergeStep
+
+
+def _replay(values: pd.Series, steps: Sequence[Step]) -> pd.Categorical:
+    name = values.name
+    if not isinstance(steps[0], (OrderStep, ExcludeStep)):
+        raise ValueError(
+            f"The steps for {name!r} do not start from an order; pass the complete `.steps` "
+            "of a table, not a slice of them."
+        )
+    current = values
+    categorical: pd.Categorical | None = None
+    for step in steps:
+        if isinstance(step, ExcludeStep):
+            if categorical is None:
+                current = current.where(~current.isin(list(step.labels)))
+            else:
+                categorical = categorical.remove_categories(list(step.labels))
+        elif isinstance(step, OrderStep):
+            if categorical is None:
+                raw = current.astype(object) if isinstance(current.dtype, pd.CategoricalDtype) else current
+                categorical = pd.Categorical(raw, categories=list(step.labels), ordered=True)
+                lost = raw.notna().to_numpy() & (np.asarray(categorical.codes) < 0)
+                if lost.any():
+                    unknown = sorted({str(v) for v in raw[lost].unique()})
+                    raise ValueError(
+                        f"Column {name!r} holds values the steps do not place: {unknown}. "
+                        "Apply the steps to the same column the table was built from."
+                    )
+            else:
+                categorical = categorical.reorder_categories(list(step.labels))
+        else:
+            assert categorical is not None
+            position = {label: k for k, group in enumerate(step.groups) for label in group}
+            lookup = np.array(
+                [position[label] for label in categorical.categories] + [-1], dtype=np.int64
+            )
+            codes = lookup[np.asarray(categorical.codes)]
+            categorical = pd.Categorical.from_codes(
+                codes, categories=list(step.labels), ordered=True
+            )
+    assert categorical is not None
+    return categorical
+
+
+def apply_steps(data: pd.Series | pd.DataFrame, steps: Sequence[Step]) -> pd.Series | pd.DataFrame:
+    """Apply a table's recorded order, exclusions and merges to raw data.
+
+    Parameters
+    ----------
+    data : pandas.Series or pandas.DataFrame
+        A raw column (its name must be a variable named in ``steps``) or a frame holding the
+        variables. It is not modified.
+    steps : sequence of steps
+        Usually ``OrdinalTable.steps``.
+
+    Returns
+    -------
+    pandas.Series or pandas.DataFrame
+        For a Series, a new Series (same index) of ordered Categorical dtype whose categories
+        are the table's final categories; excluded values become missing. For a DataFrame,
+        a copy in which every variable named in ``steps`` is replaced that way.
+
+    Examples
+    --------
+    >>> import pandas as pd, rankfold
+    >>> df = pd.DataFrame({"x": [1, 2, 3, 3], "y": [1, 1, 2, 3]})
+    >>> t = rankfold.table(df, "x", "y").merge("rows", [[1, 2], [3]])
+    >>> rankfold.apply_steps(df["x"], t.steps).tolist()
+    ['1–2', '1–2', '3', '3']
+    """
+    steps = list(steps)
+    variables = list(dict.fromkeys(step.variable for step in steps))
+    if isinstance(data, pd.DataFrame):
+        present = [v for v in variables if v in data.columns]
+        if not present:
+            raise ValueError(
+                f"None of the variables the steps refer to ({variables}) is a column of the frame."
+            )
+        replaced = {
+            v: pd.Series(
+                _replay(data[v], [s for s in steps if s.variable == v]),
+                index=data.index,
+                name=v,
+            )
+            for v in present
+        }
+        return data.assign(**replaced)
+    if not isinstance(data, pd.Series):
+        raise ValueError(f"apply_steps takes a pandas Series or DataFrame, not {type(data).__name__}.")
+    own = [s for s in steps if s.variable == data.name]
+    if not own:
+        raise ValueError(
+            f"No step refers to a variable named {data.name!r}; the steps refer to {variables}. "
+            "Name the Series after the column the table was built from (series.rename(...))."
+        )
+    return pd.Series(_replay(data, own), index=data.index, name=data.name)

@@ -1,0 +1,1 @@
+"""rankfold.widgets: the notebook explorer and its Altair views."""
