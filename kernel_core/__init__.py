@@ -9,12 +9,17 @@ from __future__ import annotations
 
 from typing import Any
 
+from . import demo
+from .cell_figures import cell_figures
+from .collapsing import apply_coding, suggest_collapsing, sweep, sweep_chunks
 from .concordance import cell_concordance, pair_counts
 from .counting import table, table_from_counts
 from .diagnostics import Diagnostics
 from .independence import PermutationResult
+from .measure_comparison import compare_measures
 from .measure_table import measure_label
 from .ordinal_table import OrdinalTable
+from .pair_regions import PairRegions, pair_regions
 from .steps import ExcludeStep, MergeStep, OrderStep, apply_steps
 
 __version__ = "0.1.0"
@@ -25,12 +30,21 @@ __all__ = [
     "MergeStep",
     "OrderStep",
     "OrdinalTable",
+    "PairRegions",
     "PermutationResult",
+    "apply_coding",
     "apply_steps",
     "cell_concordance",
+    "cell_figures",
+    "compare_measures",
+    "demo",
     "explore",
     "measure_label",
     "pair_counts",
+    "pair_regions",
+    "suggest_collapsing",
+    "sweep",
+    "sweep_chunks",
     "table",
     "table_from_counts",
 ]

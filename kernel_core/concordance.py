@@ -15,14 +15,6 @@ import numpy as np
 __all__ = ["cell_concordance", "pair_counts"]
 
 
-def _above_left_exclusive(n: np.ndarray) -> np.ndarray:
-    """Sum of n over cells strictly above and strictly left of each cell, along the last two axes."""
-    cum = n.cumsum(axis=-2).cumsum(axis=-1)
-    out = np.zeros_like(cum)
-    out[..., 1:, 1:] = cum[..., :-1, :-1]
-    return out
-
-
 def cell_concordance(counts: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Units concordant and discordant with one unit in each cell.
 
@@ -42,7 +34,10 @@ def cell_concordance(counts: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     With these, ``P = sum n_ij C_ij`` and ``Q = sum n_ij D_ij`` count ordered pairs of units
     (each unordered concordant pair twice), the convention of Goodman & Kruskal (1954) as used
     by Agresti (2010, sec. 7.1). Both come from cumulative sums of the table and of its
-    reversals, so the cost is O(I*J) whatever the number of units.
+    reversals, so the cost is O(I*J) whatever the number of units: ``C_ij`` adds the
+    cells above-left to those below-right (both read off one 2-D cumulative sum), and
+    ``D_ij`` is what remains of the units in another row and another column,
+    ``n - n_i+ - n_+j + n_ij - C_ij``.
 
     References
     ----------
@@ -51,15 +46,17 @@ def cell_concordance(counts: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     Agresti, A. (2010). Analysis of Ordinal Categorical Data, 2nd ed., Wiley, ch. 7.
     """
     n = np.asarray(counts)
-    flip_both = n[..., ::-1, ::-1]
-    flip_rows = n[..., ::-1, :]
-    flip_cols = n[..., :, ::-1]
-    concordant = _above_left_exclusive(n) + _above_left_exclusive(flip_both)[..., ::-1, ::-1]
-    discordant = (
-        _above_left_exclusive(flip_rows)[..., ::-1, :]
-        + _above_left_exclusive(flip_cols)[..., :, ::-1]
-    )
-    return concordant, discordant
+    through = n.cumsum(axis=-2).cumsum(axis=-1)  # sum over cells (<= i, <= j)
+    rows_through = through[..., :, -1:]  # units in rows <= i
+    cols_through = through[..., -1:, :]  # units in columns <= j
+    total = through[..., -1:, -1:]
+    above_left = np.zeros_like(through)
+    above_left[..., 1:, 1:] = through[..., :-1, :-1]
+    below_right = total - rows_through - cols_through + through
+    concordant = above_left + below_right
+    # units in another row and another column are either concordant or discordant
+    untied = total - n.sum(axis=-1, keepdims=True) - n.sum(axis=-2, keepdims=True) + n
+    return concordant, untied - concordant
 
 
 def pair_counts(counts: np.ndarray) -> dict[str, Any]:

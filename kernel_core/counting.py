@@ -2,14 +2,19 @@
 
 from __future__ import annotations
 
+import os
 from collections.abc import Hashable, Mapping, Sequence
 from dataclasses import dataclass
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 import pandas as pd
 
-from .ordinal_table import Origin, OrdinalTable
+from .ordinal_table import OrdinalTable, Origin
 from .steps import ExcludeStep, OrderStep, Step
+
+if TYPE_CHECKING:
+    from .sources import Tally
 
 __all__ = ["table", "table_from_counts", "MAX_NUMERIC_LEVELS", "MISSING_LABEL"]
 
@@ -33,11 +38,29 @@ class CodedColumn:
     steps: tuple[Step, ...]
 
 
-def _order_help(name: str, found: Sequence[Hashable]) -> str:
+def order_kind(dtype: object) -> str | None:
+    """Where a column's order comes from when ``order=`` does not give it.
+
+    Returns ``"declared"`` for an ordered pandas Categorical, ``"numeric"`` for numbers and
+    booleans, and None for anything else (text, unordered categoricals, dates), which needs
+    ``order=``. Counting in other engines checks their column types with this same rule.
+    """
+    if isinstance(dtype, pd.CategoricalDtype):
+        return "declared" if dtype.ordered else None
+    if pd.api.types.is_numeric_dtype(dtype) or pd.api.types.is_bool_dtype(dtype):
+        return "numeric"
+    return None
+
+
+def order_needed(name: str, found: Sequence[Hashable]) -> str:
+    """The message for a row or column variable that has no order rankfold can trust."""
     shown = [_python_scalar(x) for x in found][:12]
+    seen = f" (found categories {shown})" if shown else ""
+    example = repr(shown) if shown else "[lowest, ..., highest]"
     return (
-        f"order={{{name!r}: {shown!r}}} (listing the categories from lowest to highest), or "
-        f"convert the column to an ordered pandas Categorical"
+        f"Column {name!r} has no order rankfold can trust{seen}. Tell it the order with "
+        f"order={{{name!r}: {example}}} (listing the categories from lowest to highest), or "
+        "convert the column to an ordered pandas Categorical."
     )
 
 
@@ -73,18 +96,13 @@ def code_column(
     CodedColumn
     """
     if isinstance(series.dtype, pd.CategoricalDtype):
-        codes = np.asarray(series.cat.codes, dtype=np.int64)
+        codes = np.asarray(series.cat.codes)  # kept compact (int8 for few categories)
         uniques = [_python_scalar(x) for x in series.cat.categories]
-        declared = bool(series.cat.ordered)
-        numeric = False
     else:
         codes, uniques_index = pd.factorize(series, use_na_sentinel=True)
-        codes = np.asarray(codes, dtype=np.int64)
+        codes = np.asarray(codes)
         uniques = [_python_scalar(x) for x in uniques_index]
-        declared = False
-        numeric = pd.api.types.is_numeric_dtype(series.dtype) or pd.api.types.is_bool_dtype(
-            series.dtype
-        )
+    kind = order_kind(series.dtype)
     excluded = list(exclude or [])
     unknown_excluded = [x for x in excluded if x not in set(uniques) | set(order or [])]
     if unknown_excluded:
@@ -100,7 +118,7 @@ def code_column(
         order = [_python_scalar(x) for x in order]
         if len(set(order)) != len(order):
             raise ValueError(f"order for {name!r} lists a category twice: {order}.")
-        observed = set(np.unique(codes[codes >= 0])) if len(codes) else set()
+        observed = set(np.flatnonzero(np.bincount(codes[codes >= 0], minlength=len(uniques))))
         absent = [u for k, u in enumerate(uniques) if k in observed and u not in set(order)
                   and u not in set(excluded)]
         if absent:
@@ -110,9 +128,9 @@ def code_column(
             )
         labels = [x for x in order if x not in set(excluded)]
         origin = "given"
-    elif declared:
+    elif kind == "declared":
         labels, origin = remaining, "declared"
-    elif numeric:
+    elif kind == "numeric":
         present = [u for k, u in enumerate(uniques) if u in set(remaining)]
         if len(present) > MAX_NUMERIC_LEVELS and not nominal:
             raise ValueError(
@@ -125,18 +143,16 @@ def code_column(
     elif nominal:
         labels, origin = sorted(remaining, key=str), "sorted"
     else:
-        raise ValueError(
-            f"Column {name!r} has no order rankfold can trust (found categories "
-            f"{[_python_scalar(x) for x in remaining][:12]}). Tell it the order with "
-            + _order_help(name, remaining)
-            + "."
-        )
+        raise ValueError(order_needed(name, remaining))
     position = {label: k for k, label in enumerate(labels)}
-    lookup = np.array([position.get(u, -1) for u in uniques] + [-1], dtype=np.int64)
+    # code -1 (missing) picks the trailing -1; codes already in label order are kept as they are
+    lookup = np.array([position.get(u, -1) for u in uniques] + [-1],
+                      dtype=np.min_scalar_type(-len(labels) - 1))
     missing_mask = codes < 0
-    n_missing = int(missing_mask.sum())
-    new_codes = lookup[np.where(missing_mask, len(uniques), codes)]
-    n_excluded = int(((new_codes < 0) & ~missing_mask).sum())
+    n_missing = int(np.count_nonzero(missing_mask))
+    in_order = np.array_equal(lookup[:-1], np.arange(len(uniques)))
+    new_codes = codes if in_order else lookup[codes]
+    n_excluded = int(np.count_nonzero(new_codes < 0)) - n_missing
     if not dropna and n_missing:
         if MISSING_LABEL in position:
             raise ValueError(
@@ -150,43 +166,66 @@ def code_column(
     return CodedColumn(new_codes, tuple(labels), n_missing, n_excluded, tuple(steps))
 
 
-def _check_frame(data: object, columns: Sequence[str | None]) -> pd.DataFrame:
-    if not isinstance(data, pd.DataFrame):
-        raise ValueError(
-            f"rankfold.table takes a pandas DataFrame; got {type(data).__name__}. Build one with "
-            "pandas.DataFrame(...), or use rankfold.table_from_counts for a ready table of counts."
-        )
-    absent = [c for c in columns if c is not None and c not in data.columns]
+def check_columns(available: Sequence[Hashable], columns: Sequence[str | None]) -> None:
+    """Raise unless every named role is an available column and no column has two roles."""
+    absent = [c for c in columns if c is not None and c not in available]
     if absent:
-        raise ValueError(
-            f"Column(s) {absent} not in the DataFrame; its columns are {list(data.columns)}."
-        )
+        raise ValueError(f"Column(s) {absent} not in the data; its columns are {list(available)}.")
     named = [c for c in columns if c is not None]
     if len(set(named)) != len(named):
         raise ValueError(f"Each role needs its own column; got {named}.")
-    return data
 
 
-def _weights(data: pd.DataFrame, weight: str) -> np.ndarray:
-    values = pd.to_numeric(data[weight], errors="coerce").to_numpy(dtype=float)
-    bad_nan = int(np.isnan(values).sum())
-    bad_inf = int(np.isinf(values).sum())
-    bad_neg = int((values < 0).sum())
+def check_weights(weight: str, bad_nan: int, bad_inf: int, bad_neg: int) -> None:
+    """Raise if a weight column had missing or non-numeric, infinite or negative values."""
     if bad_nan or bad_inf or bad_neg:
-        problems = [
-            f"{k} {what}" for k, what in ((bad_nan, "missing or non-numeric"), (bad_inf, "infinite"),
-                                          (bad_neg, "negative")) if k
-        ]
+        kinds = ((bad_nan, "missing or non-numeric"), (bad_inf, "infinite"), (bad_neg, "negative"))
+        problems = [f"{k} {what}" for k, what in kinds if k]
         raise ValueError(
             f"Weight column {weight!r} has {', '.join(problems)} value(s) in "
             f"{bad_nan + bad_inf + bad_neg} row(s). Weights must be finite and >= 0 (zero is "
             "allowed): fix or drop those rows before tabulating."
         )
+
+
+def _weights(data: pd.DataFrame, weight: str) -> np.ndarray:
+    values = pd.to_numeric(data[weight], errors="coerce").to_numpy(dtype=float)
+    # -inf counts as infinite only, so the three counts add up to the rows at fault
+    check_weights(weight, int(np.isnan(values).sum()), int(np.isinf(values).sum()),
+                  int((np.isfinite(values) & (values < 0)).sum()))
     return values
 
 
+def _kept(values: np.ndarray, keep: np.ndarray | None) -> np.ndarray:
+    return values if keep is None else values[keep]
+
+
+def _bincount(cells_flat: np.ndarray, size: int, weights: np.ndarray | None = None) -> np.ndarray:
+    """``numpy.bincount`` a million records at a time: numpy widens what it counts to int64,
+    and slicing keeps that copy small whatever the number of records."""
+    out = np.zeros(size, dtype=np.int64 if weights is None else float)
+    for start in range(0, len(cells_flat), 1 << 20):
+        part = slice(start, start + (1 << 20))
+        out += np.bincount(cells_flat[part], None if weights is None else weights[part],
+                           minlength=size)
+    return out
+
+
+def _rows_per_cell(cells_flat: np.ndarray, per_line: np.ndarray | None, size: int) -> np.ndarray:
+    """Data rows in each cell: one per line of a frame, or the rows a group-by line tallies."""
+    if per_line is None:
+        return _bincount(cells_flat, size)
+    rows = np.zeros(size, dtype=np.int64)
+    np.add.at(rows, cells_flat, per_line)  # integer sums: exact at any count
+    return rows
+
+
+def _rows_where(mask: np.ndarray, tally: Tally | None) -> int:
+    return int(mask.sum()) if tally is None else int(tally.records[mask].sum())
+
+
 def table(
-    data: pd.DataFrame,
+    data: pd.DataFrame | str | os.PathLike | Any,
     row: str,
     col: str,
     *,
@@ -197,12 +236,17 @@ def table(
     exclude: Mapping[str, Sequence[Hashable]] | None = None,
     dropna: bool = True,
 ) -> OrdinalTable:
-    """Cross-tabulate two ordered variables of a DataFrame.
+    """Cross-tabulate two ordered variables of a DataFrame, a Dask or polars frame, or files.
 
     Parameters
     ----------
-    data : pandas.DataFrame
-        The records; never modified or copied.
+    data : pandas.DataFrame, dask DataFrame, polars DataFrame or LazyFrame, DuckDB relation, or path
+        The records; never modified or copied. Anything but a pandas DataFrame is counted by
+        its own engine with one group-by, and only the table comes back (see
+        :func:`rankfold.sources.tally_source`): a Dask DataFrame on its cluster, a polars
+        frame by polars, and a DuckDB relation or the path or glob of Parquet or CSV files
+        (``"survey/*.parquet"``) by DuckDB, out of core. The ordering rules below are the
+        same for every source; they are checked against the column types before counting.
     row, col : str
         Names of the row and column variables.
     layer : str, optional
@@ -213,7 +257,11 @@ def table(
         ``"frequency"``: each record stands for ``w`` identical units (results equal those on
         the expanded records). ``"sampling"``: survey weights; estimates use the weighted
         table and standard errors are Taylor-linearised, treating the records as a
-        with-replacement single-stage sample (no clusters or strata).
+        with-replacement single-stage sample (Woodruff 1971, JASA 66:411); with ``layer``,
+        each layer's records as a sample of their own. Not covered: cluster sampling and
+        design strata (a later ``cluster=`` argument is planned); where the design has them
+        the standard errors are usually too small. Count-based tests (chi-square, CMH,
+        permutation) are not available with sampling weights.
     order : dict, optional
         ``{column: [labels from lowest to highest]}``; overrides any other order.
     exclude : dict, optional
@@ -241,7 +289,6 @@ def table(
     >>> t.counts.to_numpy().tolist()
     [[1, 1, 0], [0, 1, 1], [0, 0, 1]]
     """
-    _check_frame(data, [row, col, layer, weight])
     if weight_kind not in ("frequency", "sampling"):
         raise ValueError(f"weight_kind must be 'frequency' or 'sampling'; got {weight_kind!r}.")
     if weight_kind == "sampling" and weight is None:
@@ -255,6 +302,13 @@ def table(
         for k, v in key.items():
             if isinstance(v, (str, bytes)) or not isinstance(v, Sequence):
                 raise ValueError(f"{what}[{k!r}] must be a list of labels; got {v!r}.")
+    source, tally = data, None
+    if isinstance(data, pd.DataFrame):
+        check_columns(data.columns, [row, col, layer, weight])
+    else:
+        from .sources import tally_source  # the engines are optional: imported on demand
+
+        data, tally = tally_source(data, row, col, layer=layer, weight=weight, order=order)
     coded = {
         role: code_column(data[name], name, axis, order.get(name), exclude.get(name), dropna,
                           nominal=(role == "layer"))
@@ -263,46 +317,52 @@ def table(
     }
     r, c = coded["row"], coded["col"]
     n_i, n_j = len(r.labels), len(c.labels)
-    flat = r.codes * n_j + c.codes
-    valid = (r.codes >= 0) & (c.codes >= 0)
-    n_k = 1
-    if layer is not None:
-        lay = coded["layer"]
-        n_k = len(lay.labels)
-        flat = lay.codes * (n_i * n_j) + flat
-        valid &= lay.codes >= 0
-    all_dropped = ~valid
-    keep = None if valid.all() else valid
-    cells_flat = flat if keep is None else flat[keep]
+    n_k = len(coded["layer"].labels) if layer is not None else 1
     size = n_k * n_i * n_j
+    cell_type = np.min_scalar_type(-size - 1)  # the narrowest signed type holding every cell
+    flat = np.multiply(r.codes, n_j, dtype=cell_type) + c.codes
+    if layer is not None:
+        flat += np.multiply(coded["layer"].codes, n_i * n_j, dtype=cell_type)
+    keep = None  # records kept, when some are dropped (a code of -1 in any role)
+    if any(role.n_missing or role.n_excluded for role in coded.values()):
+        keep = np.logical_and.reduce([role.codes >= 0 for role in coded.values()])
+    cells_flat = flat if keep is None else flat[keep]
+    per_line = None if tally is None else _kept(tally.records, keep)
     squared = records = None
     if weight is None:
-        cells = np.bincount(cells_flat, minlength=size).astype(np.int64)
+        cells = _rows_per_cell(cells_flat, per_line, size)
     else:
-        w = _weights(data, weight)
-        w = w if keep is None else w[keep]
-        cells = np.bincount(cells_flat, weights=w, minlength=size)
-        if weight_kind == "frequency" and np.all(np.mod(w, 1) == 0):
+        if tally is None:
+            w = _kept(_weights(data, weight), keep)
+            whole = bool(np.all(np.mod(w, 1) == 0))
+        else:
+            w = _kept(tally.weight_sum, keep)
+            whole = not _kept(tally.fractional, keep).any()
+        cells = _bincount(cells_flat, size, weights=w)
+        if weight_kind == "frequency" and whole:
             cells = np.rint(cells).astype(np.int64)
         if weight_kind == "sampling":
-            squared = np.bincount(cells_flat, weights=w * w, minlength=size).reshape(n_k, n_i, n_j)
-            layer_codes = (cells_flat // (n_i * n_j))
-            records = np.bincount(layer_codes, minlength=n_k).astype(np.int64)
-    missing_any = np.zeros(len(data), dtype=bool)
-    excluded_any = np.zeros(len(data), dtype=bool)
-    for coded_col, name in ((r, row), (c, col), (coded.get("layer"), layer)):
-        if coded_col is None:
-            continue
-        raw_missing = data[name].isna().to_numpy() if dropna else np.zeros(len(data), dtype=bool)
-        missing_any |= raw_missing
-        excluded_any |= (coded_col.codes < 0) & ~raw_missing
-    n_missing = int((missing_any & all_dropped).sum())
-    n_excluded = int((excluded_any & ~missing_any).sum())
+            w2 = w * w if tally is None else _kept(tally.weight_square_sum, keep)
+            squared = _bincount(cells_flat, size, weights=w2).reshape(n_k, n_i, n_j)
+            records = _rows_per_cell(cells_flat, per_line, size).reshape(n_k, n_i, n_j)
+    n_missing = n_excluded = 0
+    if keep is not None:  # some records were dropped: count why
+        missing_any = np.zeros(len(data), dtype=bool)
+        excluded_any = np.zeros(len(data), dtype=bool)
+        for coded_col, name in ((r, row), (c, col), (coded.get("layer"), layer)):
+            if coded_col is None:
+                continue
+            raw_missing = data[name].isna().to_numpy() if dropna else np.zeros(len(data), bool)
+            missing_any |= raw_missing
+            excluded_any |= (coded_col.codes < 0) & ~raw_missing
+        n_missing = _rows_where(missing_any & ~keep, tally)
+        n_excluded = _rows_where(excluded_any & ~missing_any, tally)
     steps = r.steps + c.steps + (coded["layer"].steps if layer is not None else ())
     origin = Origin(
         "frame",
         {"row": row, "col": col, "layer": layer, "weight": weight, "weight_kind": weight_kind,
-         "order": order, "exclude": exclude, "dropna": dropna},
+         "order": order, "exclude": exclude, "dropna": dropna}
+        | ({"source": os.fspath(source)} if isinstance(source, (str, os.PathLike)) else {}),
     )
     return OrdinalTable(
         cells=cells.reshape(n_k, n_i, n_j),
@@ -378,7 +438,8 @@ def table_from_counts(
         bad = np.argwhere(array < 0)[0].tolist()
         raise ValueError(f"counts must be non-negative; cell {bad} is {array[tuple(bad)]}.")
     if np.all(np.mod(array, 1) == 0) and array.max(initial=0) < 2**62:
-        array = array.astype(np.int64)
+        given = np.asarray(counts)  # integers keep every digit (a float holds 53 bits)
+        array = (given if np.issubdtype(given.dtype, np.integer) else array).astype(np.int64)
     n_i, n_j = array.shape
     rows = tuple(_python_scalar(x) for x in (row_labels if row_labels is not None else range(1, n_i + 1)))
     cols = tuple(_python_scalar(x) for x in (col_labels if col_labels is not None else range(1, n_j + 1)))

@@ -18,12 +18,14 @@ def sparse_cell_figures(expected: np.ndarray) -> dict[str, np.ndarray]:
     Parameters
     ----------
     expected : ndarray, shape (..., I, J)
-        Expected counts under independence; a batch is allowed.
+        Expected counts under independence; a batch is allowed. NaN marks a cell to leave
+        out (e.g. in an empty row or column, as :func:`diagnose` does).
 
     Returns
     -------
     dict
-        ``share_expected_below_5`` and ``min_expected``, each of the batch shape.
+        ``share_expected_below_5`` and ``min_expected`` over the cells that are not NaN, each
+        of the batch shape (NaN when no cell is left).
 
     Notes
     -----
@@ -31,9 +33,14 @@ def sparse_cell_figures(expected: np.ndarray) -> dict[str, np.ndarray]:
     below 1 and at most 20% below 5 (Cochran 1954, Biometrics 10:417-451).
     """
     expected = np.asarray(expected, dtype=float)
+    present = ~np.isnan(expected)
+    cells = present.sum(axis=(-2, -1))
+    with np.errstate(invalid="ignore", divide="ignore"):
+        share = (expected < 5).sum(axis=(-2, -1)) / cells
+    smallest = np.where(present, expected, np.inf).min(axis=(-2, -1))
     return {
-        "share_expected_below_5": (expected < 5).mean(axis=(-2, -1)),
-        "min_expected": expected.min(axis=(-2, -1)),
+        "share_expected_below_5": share,
+        "min_expected": np.where(cells > 0, smallest, np.nan),
     }
 
 

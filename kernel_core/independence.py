@@ -7,9 +7,13 @@ from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
-from scipy import stats
+from scipy import special, stats
+
+from .ordinal_measures import Sampling
 
 __all__ = ["tests_frame", "PermutationResult", "permutation_test", "midrank_scores"]
+
+TEST_KEYS = ("pearson_chi_square", "likelihood_ratio", "linear_by_linear")
 
 
 def midrank_scores(margin: np.ndarray) -> np.ndarray:
@@ -42,7 +46,9 @@ def _resolve_scores(scores, rows: np.ndarray, cols: np.ndarray):
 
 
 def tests_frame(
-    counts: np.ndarray, scores: str | Sequence[Sequence[float]] | None = None
+    counts: np.ndarray,
+    scores: str | Sequence[Sequence[float]] | None = None,
+    sampling: Sampling | None = None,
 ) -> pd.DataFrame:
     """Pearson chi-square, likelihood-ratio and linear-by-linear tests of independence.
 
@@ -52,6 +58,9 @@ def tests_frame(
         Cell counts.
     scores : {'positions', 'midranks'} or (row_scores, col_scores), optional
         Category scores of the linear-by-linear test; integer positions 1, 2, ... by default.
+    sampling : Sampling, optional
+        With sampling weights the totals are not counts, so these count-based tests would be
+        wrong (a weight of 2 doubles every statistic); they are then NaN with that reason.
 
     Returns
     -------
@@ -82,11 +91,15 @@ def tests_frame(
     if (~keep_r).any() or (~keep_c).any():
         empty_note = "empty categories left out of the degrees of freedom"
     out = {}
+    if sampling is not None and sampling.squared is not None:
+        reason = (
+            "not for sampling weights: the weighted totals are not counts; use the "
+            "z tests of measures(), whose errors follow the weights"
+        )
+        return _frame(dict.fromkeys(TEST_KEYS, (np.nan, np.nan, np.nan, reason)))
     if df < 1 or total <= 0:
         reason = "needs at least two non-empty categories on each variable"
-        for key in ("pearson_chi_square", "likelihood_ratio", "linear_by_linear"):
-            out[key] = (np.nan, np.nan, np.nan, reason)
-        return _frame(out)
+        return _frame(dict.fromkeys(TEST_KEYS, (np.nan, np.nan, np.nan, reason)))
     expected = np.outer(sub.sum(axis=1), sub.sum(axis=0)) / total
     x2 = float(((sub - expected) ** 2 / expected).sum())
     with np.errstate(divide="ignore", invalid="ignore"):
@@ -98,8 +111,8 @@ def tests_frame(
         else ""
     )
     note = "; ".join(x for x in (empty_note, sparse_note) if x)
-    out["pearson_chi_square"] = (x2, df, float(stats.chi2.sf(x2, df)), note)
-    out["likelihood_ratio"] = (g2, df, float(stats.chi2.sf(g2, df)), note)
+    out["pearson_chi_square"] = (x2, df, float(special.chdtrc(df, x2)), note)
+    out["likelihood_ratio"] = (g2, df, float(special.chdtrc(df, g2)), note)
 
     u = row_scores - (rows_all * row_scores).sum() / n.sum()
     v = col_scores - (cols_all * col_scores).sum() / n.sum()
@@ -109,7 +122,7 @@ def tests_frame(
     if s_uu > 0 and s_vv > 0:
         r = s_uv / np.sqrt(s_uu * s_vv)
         m2 = (n.sum() - 1) * r**2
-        out["linear_by_linear"] = (float(m2), 1, float(stats.chi2.sf(m2, 1)), "")
+        out["linear_by_linear"] = (float(m2), 1, float(special.chdtrc(1, m2)), "")
     else:
         out["linear_by_linear"] = (np.nan, np.nan, np.nan, "the scores do not vary")
     return _frame(out)
@@ -194,8 +207,9 @@ def permutation_test(
     if np.isnan(observed):
         raise ValueError(f"{measure} is undefined for this table, so it cannot be tested.")
     rng = np.random.default_rng(seed)
-    dist = stats.random_table(n.sum(axis=1).astype(np.int64), n.sum(axis=0).astype(np.int64),
-                              seed=rng)
+    dist = stats.random_table(
+        n.sum(axis=1).astype(np.int64), n.sum(axis=0).astype(np.int64), seed=rng
+    )
     values = []
     remaining = int(n_resamples)
     chunk = max(1, min(remaining, 2_000_000 // max(n.size, 1)))

@@ -2,14 +2,23 @@
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+
 import numpy as np
 import pandas as pd
-from scipy import special, stats
+from scipy import special
 
 from .ordinal_measures import ORDINAL_MEASURES, Sampling, delta_variance, ordinal_measure_arrays
 from .two_by_two import two_by_two_measures
 
-__all__ = ["COLUMNS", "measures_frame", "measure_label", "normal_p_value"]
+__all__ = [
+    "COLUMNS",
+    "inference_frame",
+    "measures_frame",
+    "measure_label",
+    "normal_p_value",
+    "sampling_note",
+]
 
 COLUMNS = ["estimate", "std_error", "ci_low", "ci_high", "std_error_null", "z", "p_value", "note"]
 
@@ -33,6 +42,7 @@ def measure_label(key: str, row_name: str, col_name: str) -> str:
     """
     labels = {
         "gamma": "Goodman–Kruskal gamma",
+        "partial_gamma": "partial gamma (layers held fixed)",
         "somers_d_col_given_row": f"Somers' d ({col_name} | {row_name})",
         "somers_d_row_given_col": f"Somers' d ({row_name} | {col_name})",
         "somers_d_symmetric": "Somers' d (symmetric)",
@@ -64,21 +74,9 @@ def _undefined_reasons(counts: np.ndarray) -> dict[str, str]:
         return dict.fromkeys((*ORDINAL_MEASURES, "cramers_v"), "the table is empty")
     one_row = "" if busy_rows > 1 else "all units fall in one row category"
     one_col = "" if busy_cols > 1 else "all units fall in one column category"
-    any_one = one_row or one_col
-    from .concordance import cell_concordance
-
-    conc, disc = cell_concordance(counts)
-    untied = (counts * (conc + disc)).sum() > 0
-    return {
-        "gamma": any_one or ("" if untied else "no pair of units is untied on both variables"),
-        "somers_d_col_given_row": one_row,
-        "somers_d_row_given_col": one_col,
-        "somers_d_symmetric": "" if busy_rows > 1 or busy_cols > 1 else any_one,
-        "tau_b": any_one,
-        "tau_c": any_one,
-        "spearman_rho": any_one,
-        "cramers_v": any_one,
-    }
+    # With one category on either variable P - Q is 0 by construction, not by data. With two
+    # or more on each, some pair of units is untied on both, so gamma is defined too.
+    return dict.fromkeys((*ORDINAL_MEASURES, "cramers_v"), one_row or one_col)
 
 
 def _cramers_v(counts: np.ndarray, sampling: Sampling) -> dict[str, float]:
@@ -105,7 +103,11 @@ def _cramers_v(counts: np.ndarray, sampling: Sampling) -> dict[str, float]:
     sq = None if sampling.squared is None else sampling.squared[keep_r][:, keep_c]
     var_phi2 = delta_variance(n, grad_phi2, Sampling(sq, sampling.records))
     se = np.sqrt(var_phi2) / (2 * v * (m - 1)) if v > 0 else np.nan
-    return {"estimate": v, "std_error": float(se)}
+    # Pearson's X^2 = n phi^2 on (I' - 1)(J' - 1) df (Cramer 1946, sec. 21.9); weighted
+    # totals under sampling weights are not counts, so no p-value then.
+    df = (n.shape[0] - 1) * (n.shape[1] - 1)
+    p = special.chdtrc(df, n.sum() * max(phi2, 0.0)) if sampling.squared is None else np.nan
+    return {"estimate": v, "std_error": float(se), "p_value": float(p)}
 
 
 def measures_frame(
@@ -113,7 +115,6 @@ def measures_frame(
     *,
     sampling: Sampling | None = None,
     confidence: float = 0.95,
-    chi_square_p: float = np.nan,
 ) -> pd.DataFrame:
     """The measures of one 2-D table as a DataFrame (see :meth:`OrdinalTable.measures`).
 
@@ -125,8 +126,6 @@ def measures_frame(
         Survey-weight information for the standard errors.
     confidence : float
         Confidence level of the intervals, strictly between 0 and 1.
-    chi_square_p : float
-        p-value of Pearson's chi-square test, reported on the Cramér's V row.
 
     Returns
     -------
@@ -134,10 +133,12 @@ def measures_frame(
         Indexed by measure key with columns :data:`COLUMNS`.
     """
     if not 0 < confidence < 1:
-        raise ValueError(f"confidence must be strictly between 0 and 1 (e.g. 0.95); got {confidence!r}.")
+        raise ValueError(
+            f"confidence must be strictly between 0 and 1 (e.g. 0.95); got {confidence!r}."
+        )
     sampling = sampling or Sampling()
     counts = np.asarray(counts, dtype=float)
-    crit = stats.norm.ppf(0.5 + confidence / 2)
+    crit = special.ndtri(0.5 + confidence / 2)  # standard normal quantile
     reasons = _undefined_reasons(counts)
     arrays = ordinal_measure_arrays(counts, sampling)
     records = []
@@ -148,46 +149,147 @@ def measures_frame(
             est = se = se0 = np.nan
         records.append((key, est, se, se0, note, (-1.0, 1.0), False))
     v_note = reasons["cramers_v"]
+    chi_square_p = np.nan  # Pearson's test, reported on the Cramér's V row
     if v_note:
         records.append(("cramers_v", np.nan, np.nan, np.nan, v_note, (0.0, 1.0), False))
     else:
         v = _cramers_v(counts, sampling)
+        chi_square_p = v["p_value"]
         v_note = "nominal measure; p-value from Pearson's chi-square test"
+        if sampling.squared is not None:
+            v_note = "nominal measure; no p-value with sampling weights"
         if not v["estimate"] > 0:
             v_note += "; V = 0 is on the boundary: no delta-method interval"
-        records.append(("cramers_v", v["estimate"], v["std_error"], np.nan, v_note, (0.0, 1.0), False))
+        records.append(
+            ("cramers_v", v["estimate"], v["std_error"], np.nan, v_note, (0.0, 1.0), False)
+        )
     if counts.shape == (2, 2) and counts.sum() > 0:
         for key, m in two_by_two_measures(counts).items():
             bounds = (-1.0, 1.0) if not m["log_scale"] else (0.0, np.inf)
             records.append(
-                (key, m["estimate"], m["std_error"], m["std_error_null"], m["note"], bounds,
-                 m["log_scale"])
+                (
+                    key,
+                    m["estimate"],
+                    m["std_error"],
+                    m["std_error_null"],
+                    m["note"],
+                    bounds,
+                    m["log_scale"],
+                )
             )
 
-    rows = []
-    for key, est, se, se0, note, (lo, hi), log_scale in records:
-        notes = [note] if note else []
-        centre = np.log(est) if log_scale and est > 0 else est
-        with np.errstate(invalid="ignore", divide="ignore"):
-            if log_scale:
-                ci_low, ci_high = np.exp(centre - crit * se), np.exp(centre + crit * se)
-            else:
-                ci_low = float(np.clip(est - crit * se, lo, hi))
-                ci_high = float(np.clip(est + crit * se, lo, hi))
-            z = centre / se0 if se0 > 0 else np.nan
-        if key == "cramers_v":
-            p = chi_square_p if not np.isnan(est) else np.nan
-        else:
-            p = float(normal_p_value(z))
-        if not np.isnan(est) and se == 0 and key != "cramers_v":
-            notes.append("estimate at its bound: the delta-method interval is degenerate; "
-                         "use permutation_test")
-        if not np.isnan(est) and key != "cramers_v" and not se0 > 0:
-            notes.append("no variation under independence: no z test")
-        rows.append(
-            {"measure": key, "estimate": est, "std_error": se, "ci_low": ci_low,
-             "ci_high": ci_high, "std_error_null": se0, "z": z, "p_value": p,
-             "note": "; ".join(notes)}
+    if sampling.squared is not None:
+        extra = sampling_note(counts.sum(), sampling.squared.sum())
+        records = [(*r[:4], f"{r[4]}; {extra}" if r[4] else extra, *r[5:]) for r in records]
+    keys, est, se, se0, notes, bounds, log_scale = zip(*records, strict=True)
+    p_values = [chi_square_p if key == "cramers_v" else None for key in keys]
+    return inference_frame(
+        keys, est, se, se0, notes, crit=crit, bounds=bounds, log_scale=log_scale, p_values=p_values
+    )
+
+
+def sampling_note(total: float, squared: float) -> str:
+    """Plain note for results from sampling weights, with Kish's effective sample size.
+
+    Parameters
+    ----------
+    total, squared : float
+        Sum of the weights and sum of their squares over the records counted.
+
+    Returns
+    -------
+    str
+        The note; the effective size is ``(sum w)^2 / sum w^2`` (Kish 1965, Survey Sampling,
+        sec. 11.7), the number of unweighted records that would give about the same precision.
+    """
+    size = f"{total**2 / squared:.1f}" if squared > 0 else "undefined (no weight)"
+    return (
+        "sampling weights: Taylor-linearised errors, rows as a with-replacement sample "
+        f"(no clusters or strata); Kish effective n = {size}"
+    )
+
+
+def inference_frame(
+    keys: Sequence[str],
+    estimate: Sequence[float],
+    std_error: Sequence[float],
+    std_error_null: Sequence[float],
+    notes: Sequence[str],
+    *,
+    crit: float,
+    bounds: Sequence[tuple[float, float]] | None = None,
+    log_scale: Sequence[bool] | None = None,
+    p_values: Sequence[float | None] | None = None,
+) -> pd.DataFrame:
+    """Measures table: Wald interval, z statistic, p-value and notes for each estimate.
+
+    Parameters
+    ----------
+    keys : sequence of str
+        Measure keys (the index).
+    estimate, std_error, std_error_null : sequence of float
+        Estimates, delta-method standard errors and standard errors under independence
+        (NaN when undefined).
+    notes : sequence of str
+        Reason or remark each note starts with ('' for none).
+    crit : float
+        Normal quantile of the interval, e.g. 1.96 for 95%.
+    bounds : sequence of (float, float), optional
+        Range of each measure (default [-1, 1]); intervals are clipped to it.
+    log_scale : sequence of bool, optional
+        Where True, the standard errors refer to ``log(estimate)`` (ratios) and the interval
+        is ``exp(log(estimate) +/- crit * std_error)``.
+    p_values : sequence of float or None, optional
+        A p-value from another test where not None (Cramér's V uses Pearson's chi-square);
+        otherwise the two-sided normal p-value of ``z = estimate / std_error_null``.
+
+    Returns
+    -------
+    pandas.DataFrame
+        Indexed by ``measure`` with the columns of :data:`COLUMNS`.
+
+    Notes
+    -----
+    Wald intervals and z tests, as in Agresti (2010, sec. 7.1.3); the clipping to the
+    measure's range is common practice.
+    """
+    size = len(keys)
+    est = np.asarray(estimate, dtype=float)
+    se = np.asarray(std_error, dtype=float)
+    se0 = np.asarray(std_error_null, dtype=float)
+    lo, hi = np.asarray(bounds if bounds is not None else [(-1.0, 1.0)] * size, dtype=float).T
+    logs = np.asarray(log_scale if log_scale is not None else [False] * size, dtype=bool)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        centre = np.where(logs, np.log(np.where(est > 0, est, np.nan)), est)
+        ci_low = np.where(logs, np.exp(centre - crit * se), np.clip(est - crit * se, lo, hi))
+        ci_high = np.where(logs, np.exp(centre + crit * se), np.clip(est + crit * se, lo, hi))
+        z = np.where(se0 > 0, centre / np.where(se0 > 0, se0, 1.0), np.nan)
+    p = normal_p_value(z)
+    if p_values is not None:
+        p = np.array(
+            [normal if other is None else other for normal, other in zip(p, p_values, strict=True)]
         )
-    frame = pd.DataFrame(rows).set_index("measure")
-    return frame[COLUMNS]
+    full_notes = []
+    for k, key in enumerate(keys):
+        parts = [notes[k]] if notes[k] else []
+        defined = not np.isnan(est[k])
+        if defined and se[k] == 0 and key != "cramers_v":
+            hint = "; use permutation_test" if key in ORDINAL_MEASURES else ""
+            parts.append(f"estimate at its bound: the delta-method interval is degenerate{hint}")
+        if defined and key != "cramers_v" and not se0[k] > 0:
+            parts.append("no variation under independence: no z test")
+        full_notes.append("; ".join(parts))
+    columns = {
+        "estimate": est,
+        "std_error": se,
+        "ci_low": ci_low,
+        "ci_high": ci_high,
+        "std_error_null": se0,
+        "z": z,
+        "p_value": p,
+        "note": np.array(full_notes, dtype=object),
+    }
+    # an object index and copy=False keep pandas from inspecting every value again
+    return pd.DataFrame(
+        columns, index=pd.Index(list(keys), name="measure", dtype=object), copy=False
+    )

@@ -71,14 +71,16 @@ def delta_variance(counts: np.ndarray, grad: np.ndarray, sampling: Sampling) -> 
     Woodruff, R. S. (1971). A simple method for approximating the variance of a complicated
     estimate. JASA 66, 411-414.
     """
-    linear = (counts * grad).sum(axis=(-2, -1))
-    if sampling.squared is None:
-        square = (counts * grad**2).sum(axis=(-2, -1))
-        m = counts.sum(axis=(-2, -1))
-    else:
-        square = (sampling.squared * grad**2).sum(axis=(-2, -1))
-        m = sampling.records
-    with np.errstate(invalid="ignore", divide="ignore"):
+    # An undefined measure has an infinite gradient in some cell; 0 * inf there gives NaN
+    # silently, and the caller explains the NaN.
+    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+        linear = (counts * grad).sum(axis=(-2, -1))
+        if sampling.squared is None:
+            square = (counts * grad**2).sum(axis=(-2, -1))
+            m = counts.sum(axis=(-2, -1))
+        else:
+            square = (sampling.squared * grad**2).sum(axis=(-2, -1))
+            m = sampling.records
         var = square - linear**2 / m
     return np.maximum(var, 0.0)
 
@@ -127,7 +129,7 @@ def ordinal_measure_arrays(
       ``(2 w d_ij + tau_b v_ij - tau_b n (w_r + w_c))/w^2`` with
       ``v_ij = n_i+ w_c + n_+j w_r``;
     * tau-c ``= m (P - Q)/(n^2 (m - 1))``, ``m`` the smaller number of non-empty categories,
-      gradient ``2 m d_ij / ((m - 1) n^2)`` (Stuart 1953, Biometrika 40:106);
+      gradient ``2 m (d_ij - (P - Q)/n) / ((m - 1) n^2)`` (Stuart 1953, Biometrika 40:106);
     * Spearman's rho with midrank scores, the Pearson correlation of the scores, whose
       gradient is derived in the code below.
 
@@ -163,42 +165,50 @@ def ordinal_measure_arrays(
     row_grid = rows[..., :, None]
     col_grid = cols[..., None, :]
 
-    def finish(estimate, grad, grad_null):
+    # The null gradient of every measure below is 2 d_ij times a per-table constant, so one
+    # variance of the numerator P - Q serves them all.
+    numerator_se = np.sqrt(delta_variance(n, 2 * d, sampling))
+
+    def finish(estimate, grad, null_scale):
+        with np.errstate(invalid="ignore"):
+            null = numerator_se * np.abs(null_scale)
         return {
             "estimate": estimate,
             "std_error": np.sqrt(delta_variance(n, grad, sampling)),
-            "std_error_null": np.sqrt(delta_variance(n, grad_null, sampling)),
+            "std_error_null": null,
         }
 
     out: dict[str, dict[str, np.ndarray]] = {}
+
     # Each quotient numerator / den: numerator gradient 2 d_ij, den gradient given.
     def ratio(den, den_grad):
         estimate = _divide(S, den)
         den_x = _expand(den)
         with np.errstate(invalid="ignore", divide="ignore"):
             grad = (2 * d * den_x - _expand(S) * den_grad) / den_x**2
-            grad_null = 2 * d / den_x
-        return finish(estimate, grad, grad_null)
+        return finish(estimate, grad, _divide(1.0, den))
 
     out["gamma"] = ratio(P + Q, 2 * (conc + disc))
     out["somers_d_col_given_row"] = ratio(w_r, 2 * (N - row_grid))
     out["somers_d_row_given_col"] = ratio(w_c, 2 * (N - col_grid))
     out["somers_d_symmetric"] = ratio((w_r + w_c) / 2, 2 * N - row_grid - col_grid)
 
-    w = np.sqrt(w_r * w_c)
+    w = np.sqrt(np.maximum(w_r * w_c, 0.0))  # rounding: w_r < 0 by 1 ulp
     tau_b = _divide(S, w)
     w_x, tau_x = _expand(w), _expand(tau_b)
     v = row_grid * _expand(w_c) + col_grid * _expand(w_r)
     with np.errstate(invalid="ignore", divide="ignore"):
         grad = (2 * w_x * d + tau_x * v - tau_x * N * _expand(w_r + w_c)) / w_x**2
-        grad_null = 2 * d / w_x
-    out["tau_b"] = finish(tau_b, grad, grad_null)
+    out["tau_b"] = finish(tau_b, grad, _divide(1.0, w))
 
     m = np.minimum((rows > 0).sum(axis=-1), (cols > 0).sum(axis=-1)).astype(float)
     scale = _divide(m, (m - 1) * total**2)
     scale = np.where(m >= 2, scale, np.nan)
-    grad = 2 * d * _expand(scale)
-    out["tau_c"] = finish(S * scale, grad, grad)
+    # d/dn_ij of S / n^2 is (2 d_ij - 2 S / n) / n^2: the second term is the same in every
+    # cell, so multinomial variances ignore it, but survey-weight variances do not.
+    with np.errstate(invalid="ignore", divide="ignore"):  # empty table: NaN, explained later
+        grad = 2 * (d - _expand(S) / N) * _expand(scale)
+    out["tau_c"] = finish(S * scale, grad, scale)
 
     out["spearman_rho"] = _spearman(n, rows, cols, total, sampling)
     return out
@@ -226,7 +236,7 @@ def _spearman(n, rows, cols, total, sampling):
     s_ab = (n * a[..., :, None] * b[..., None, :]).sum(axis=(-2, -1)) - total**3 / 4
     s_aa = (total**3 - (rows**3).sum(axis=-1)) / 12
     s_bb = (total**3 - (cols**3).sum(axis=-1)) / 12
-    denom = np.sqrt(s_aa * s_bb)
+    denom = np.sqrt(np.maximum(s_aa * s_bb, 0.0))
     rho = _divide(s_ab, denom)
     R = (n * b[..., None, :]).sum(axis=-1)
     K = (n * a[..., :, None]).sum(axis=-2)

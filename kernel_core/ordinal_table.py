@@ -12,6 +12,7 @@ import pandas as pd
 from .concordance import pair_counts
 from .diagnostics import Diagnostics, diagnose
 from .independence import PermutationResult, permutation_test, tests_frame
+from .layers import layer_counts, layer_measures, layer_tests, partial_measures, single_layer
 from .measure_table import measures_frame
 from .ordinal_measures import Sampling
 from .steps import ExcludeStep, MergeStep, OrderStep, Step, merged_label
@@ -84,7 +85,7 @@ class OrdinalTable:
     weight: str | None = None
     weight_kind: str | None = None
     squared_weights: np.ndarray | None = None  # (K, I, J) when weight_kind == "sampling"
-    records: np.ndarray | None = None  # (K,) data rows per layer when weight_kind == "sampling"
+    records: np.ndarray | None = None  # (K, I, J) data rows per cell when weight_kind == "sampling"
     origin: Origin = field(default_factory=lambda: Origin("counts"))
     initial_steps: int = 0
 
@@ -123,7 +124,7 @@ class OrdinalTable:
     def _sampling(self) -> Sampling:
         if self.squared_weights is None:
             return Sampling()
-        return Sampling(self.squared_weights.sum(axis=0), np.asarray(self.records).sum())
+        return Sampling(self.squared_weights.sum(axis=0), self.records.sum())
 
     # ----------------------------------------------------------------------- statistics
     def pairs(self) -> dict[str, int | float]:
@@ -168,19 +169,7 @@ class OrdinalTable:
         ----------
         Agresti, A. (2010). Analysis of Ordinal Categorical Data, 2nd ed., Wiley, ch. 7.
         """
-        chi_p = self.tests().loc["pearson_chi_square", "p_value"]
-        frame = measures_frame(
-            self._pooled(), sampling=self._sampling(), confidence=confidence, chi_square_p=chi_p
-        )
-        if self.weight_kind == "sampling":
-            squared = self.squared_weights.sum()
-            kish = float(self.cells.sum() ** 2 / squared) if squared > 0 else float("nan")
-            extra = (
-                f"sampling weights: Taylor-linearised errors, rows as a with-replacement sample; "
-                f"Kish effective n = {kish:.1f}"
-            )
-            frame["note"] = [f"{x}; {extra}" if x else extra for x in frame["note"]]
-        return frame
+        return measures_frame(self._pooled(), sampling=self._sampling(), confidence=confidence)
 
     def tests(self, scores: str | Sequence[Sequence[float]] | None = None) -> pd.DataFrame:
         """Tests of independence: Pearson chi-square, likelihood ratio, linear-by-linear.
@@ -193,9 +182,15 @@ class OrdinalTable:
         Returns
         -------
         pandas.DataFrame
-            See :func:`rankfold.independence.tests_frame`.
+            See :func:`rankfold.independence.tests_frame` (on the table pooled over layers).
+            A layered table adds ``cmh_correlation`` (association within layers, same
+            scores, midranks taken within each layer) and ``gamma_homogeneity``, see
+            :func:`rankfold.layers.layer_tests`.
         """
-        return tests_frame(self._pooled(), scores)
+        frame = tests_frame(self._pooled(), scores, sampling=self._sampling())
+        if self.layer_name is None:
+            return frame
+        return pd.concat([frame, layer_tests(self, scores)])
 
     def permutation_test(
         self,
@@ -205,13 +200,47 @@ class OrdinalTable:
     ) -> PermutationResult:
         """Monte Carlo permutation p-value of a measure with both margins fixed.
 
-        See :func:`rankfold.independence.permutation_test`.
+        See :func:`rankfold.independence.permutation_test`. It permutes units, so it is not
+        available for sampling weights, and it ignores layers (it tests the pooled table).
         """
+        if self.weight_kind == "sampling":
+            raise ValueError(
+                "The permutation test shuffles units, which sampling weights do not describe; "
+                "use the design-based z tests of measures() instead."
+            )
         return permutation_test(self._pooled(), measure, n_resamples, seed)
 
     def diagnostics(self) -> Diagnostics:
         """Expected counts, adjusted residuals, pair contributions and sparse-cell figures."""
         return diagnose(self.counts)
+
+    # ---------------------------------------------------------------------------- layers
+    @property
+    def layer_counts(self) -> pd.DataFrame:
+        """Each layer's table, stacked, index (layer, row).
+
+        See :func:`rankfold.layers.layer_counts`.
+        """
+        return layer_counts(self)
+
+    def layer_table(self, label: Hashable) -> OrdinalTable:
+        """One layer as a table of its own; see :func:`rankfold.layers.single_layer`."""
+        return single_layer(self, label)
+
+    def layer_measures(self, confidence: float = 0.95) -> pd.DataFrame:
+        """The measures of each layer's own table, index (layer, measure).
+
+        See :func:`rankfold.layers.layer_measures`.
+        """
+        return layer_measures(self, confidence)
+
+    def partial_measures(self, confidence: float = 0.95) -> pd.DataFrame:
+        """Partial gamma: the association within layers, pooled (Davis 1967, JASA 62:189).
+
+        See :func:`rankfold.layers.partial_measures`; compare with :meth:`layer_measures` and
+        the ``gamma_homogeneity`` row of :meth:`tests` before reporting a single value.
+        """
+        return partial_measures(self, confidence)
 
     # --------------------------------------------------------------------- coding steps
     def _labels(self, axis: int) -> tuple:
@@ -220,8 +249,11 @@ class OrdinalTable:
     def _variable(self, axis: int) -> str:
         return self.row_name if axis == 1 else self.col_name
 
-    def _with_axis(self, axis: int, labels: tuple, index: list[list[int]], step: Step) -> OrdinalTable:
+    def _with_axis(
+        self, axis: int, labels: tuple, index: list[list[int]], step: Step
+    ) -> OrdinalTable:
         """New table whose category k on ``axis`` sums old categories ``index[k]``."""
+
         def regroup(cells: np.ndarray | None) -> np.ndarray | None:
             if cells is None:
                 return None
@@ -237,6 +269,7 @@ class OrdinalTable:
             self,
             cells=regroup(self.cells),
             squared_weights=regroup(self.squared_weights),
+            records=regroup(self.records),
             steps=(*self.steps, step),
             **{key: labels},
         )
@@ -294,7 +327,9 @@ class OrdinalTable:
         flat = [x for g in groups for x in g]
         self._positions(ax, flat, "merge")
         if labels is not None and len(labels) != len(groups):
-            raise ValueError(f"Give one label per group: {len(groups)} groups, {len(labels)} labels.")
+            raise ValueError(
+                f"Give one label per group: {len(groups)} groups, {len(labels)} labels."
+            )
         owner: dict[int, int] = {}
         for k, group in enumerate(groups):
             pos = sorted(self._positions(ax, list(group), "merge"))
@@ -385,11 +420,14 @@ class OrdinalTable:
         if len(pos) != len(current):
             left = [x for x in current if x not in set(labels)]
             raise ValueError(f"reorder needs every category once; missing: {left}.")
-        step = OrderStep(axis=axis, variable=self._variable(ax), labels=tuple(labels), origin="reorder")
+        step = OrderStep(
+            axis=axis, variable=self._variable(ax), labels=tuple(labels), origin="reorder"
+        )
         return self._with_axis(ax, tuple(labels), [[p] for p in pos], step)
 
     def transpose(self) -> OrdinalTable:
         """The same table with rows and columns swapped (steps are kept)."""
+
         def swap(cells):
             return None if cells is None else np.swapaxes(cells, 1, 2)
 
@@ -397,12 +435,25 @@ class OrdinalTable:
             self,
             cells=swap(self.cells),
             squared_weights=swap(self.squared_weights),
+            records=swap(self.records),
             row_name=self.col_name,
             col_name=self.row_name,
             row_labels=self.col_labels,
             col_labels=self.row_labels,
-            steps=tuple(replace(s, axis="cols" if s.axis == "rows" else "rows") for s in self.steps),
-            origin=Origin("counts"),
+            steps=tuple(
+                replace(s, axis="cols" if s.axis == "rows" else "rows") for s in self.steps
+            ),
+            # the counts as transposed, so that to_code replays only the steps taken after
+            origin=Origin(
+                "counts",
+                {
+                    "cells": swap(self.cells).sum(axis=0).tolist(),
+                    "row_labels": self.col_labels,
+                    "col_labels": self.row_labels,
+                    "row_name": self.col_name,
+                    "col_name": self.row_name,
+                },
+            ),
             initial_steps=len(self.steps),
         )
 
@@ -413,7 +464,8 @@ class OrdinalTable:
         Parameters
         ----------
         data_name : str
-            Name of the DataFrame variable in the reader's notebook.
+            Name of the DataFrame variable in the reader's notebook (a table counted from
+            files names their path instead).
 
         Returns
         -------
@@ -422,7 +474,8 @@ class OrdinalTable:
         """
         args = self.origin.arguments
         if self.origin.kind == "frame":
-            parts = [data_name, repr(args["row"]), repr(args["col"])]
+            source = repr(args["source"]) if "source" in args else data_name  # files by path
+            parts = [source, repr(args["row"]), repr(args["col"])]
             for key in ("layer", "weight"):
                 if args.get(key) is not None:
                     parts.append(f"{key}={args[key]!r}")
@@ -436,7 +489,9 @@ class OrdinalTable:
                 parts.append("dropna=False")
             call = f"rankfold.table({', '.join(parts)})"
         else:
-            counts = np.asarray(self.cells.sum(axis=0) if args.get("cells") is None else args["cells"])
+            counts = np.asarray(
+                self.cells.sum(axis=0) if args.get("cells") is None else args["cells"]
+            )
             as_list = counts.tolist()
             call = (
                 f"rankfold.table_from_counts(\n        {as_list!r},\n"
@@ -446,9 +501,11 @@ class OrdinalTable:
                 f"col_name={args.get('col_name', self.col_name)!r},\n    )"
             )
         lines = ["import pandas as pd", "import rankfold", "", "table = (", f"    {call}"]
-        for step in self.steps[self.initial_steps:]:
+        for step in self.steps[self.initial_steps :]:
             if isinstance(step, MergeStep):
-                pairs = [(g, lab) for g, lab in zip(step.groups, step.labels, strict=True) if len(g) > 1]
+                pairs = [
+                    (g, lab) for g, lab in zip(step.groups, step.labels, strict=True) if len(g) > 1
+                ]
                 groups = "[" + ", ".join(_list_literal(g) for g, _ in pairs) + "]"
                 custom = [lab for g, lab in pairs if lab != merged_label(g)]
                 tail = f", labels={_list_literal([lab for _, lab in pairs])}" if custom else ""
@@ -461,7 +518,11 @@ class OrdinalTable:
         return "\n".join(lines)
 
     def __repr__(self) -> str:
-        layer = f", layered by {self.layer_name!r} ({len(self.layer_labels)})" if self.layer_name else ""
+        layer = (
+            f", layered by {self.layer_name!r} ({len(self.layer_labels)})"
+            if self.layer_name
+            else ""
+        )
         weight = f", weighted by {self.weight!r} ({self.weight_kind})" if self.weight else ""
         return (
             f"<OrdinalTable {self.row_name!r} ({len(self.row_labels)}) x {self.col_name!r} "

@@ -93,7 +93,11 @@ def _replay(values: pd.Series, steps: Sequence[Step]) -> pd.Categorical:
                 categorical = categorical.remove_categories(list(step.labels))
         elif isinstance(step, OrderStep):
             if categorical is None:
-                raw = current.astype(object) if isinstance(current.dtype, pd.CategoricalDtype) else current
+                raw = (
+                    current.astype(object)
+                    if isinstance(current.dtype, pd.CategoricalDtype)
+                    else current
+                )
                 categorical = pd.Categorical(raw, categories=list(step.labels), ordered=True)
                 lost = raw.notna().to_numpy() & (np.asarray(categorical.codes) < 0)
                 if lost.any():
@@ -162,7 +166,9 @@ def apply_steps(data: pd.Series | pd.DataFrame, steps: Sequence[Step]) -> pd.Ser
         }
         return data.assign(**replaced)
     if not isinstance(data, pd.Series):
-        raise ValueError(f"apply_steps takes a pandas Series or DataFrame, not {type(data).__name__}.")
+        raise ValueError(
+            f"apply_steps takes a pandas Series or DataFrame, not {type(data).__name__}."
+        )
     own = [s for s in steps if s.variable == data.name]
     if not own:
         raise ValueError(

@@ -99,10 +99,14 @@ def two_by_two_measures(counts: np.ndarray) -> dict[str, dict[str, float | str]]
             "std_error_null": np.sqrt(pooled * (1 - pooled) * (1 / rows[0] + 1 / rows[1])),
             "log_scale": False,
             "note": "; ".join(
-                x for x in (group_note, "proportion in the first column category, row 1 - row 2") if x
+                x
+                for x in (group_note, "proportion in the first column category, row 1 - row 2")
+                if x
             ),
         }
-        rr_note = group_note or ("" if n[1, 0] > 0 and n[0, 0] > 0 else "a first-column cell is zero")
+        rr_note = group_note or (
+            "" if n[1, 0] > 0 and n[0, 0] > 0 else "a first-column cell is zero"
+        )
         out["relative_risk"] = {
             "estimate": p1 / p2 if not rr_note else np.nan,
             "std_error": np.sqrt(1 / n[0, 0] - 1 / rows[0] + 1 / n[1, 0] - 1 / rows[1])
@@ -113,7 +117,9 @@ def two_by_two_measures(counts: np.ndarray) -> dict[str, dict[str, float | str]]
             ),
             "log_scale": True,
             "note": "; ".join(
-                x for x in (rr_note, "first column category, row 1 / row 2; errors on the log scale") if x
+                x
+                for x in (rr_note, "first column category, row 1 / row 2; errors on the log scale")
+                if x
             ),
         }
     return out

@@ -1,0 +1,205 @@
+"""The quickstart notebook in a real browser: JupyterLab in headless Chromium, offline.
+
+Runs every cell through JupyterLab's Run menu, then works the explorer as a reader would: picks
+another column variable in its dropdown, merges two neighbouring categories in the category
+editor, reads the measures on the page, clicks a heatmap cell and follows the pair view. What
+the page shows is checked against the core computed here and against references outside the
+project (pandas' crosstab, pair counts by enumeration, scipy.stats).
+
+``pytest -m browser`` runs these tests alone. To refresh the README's picture from the same run:
+``python -m pytest tests/browser --readme-screenshot docs/explorer.png``.
+"""
+
+from __future__ import annotations
+
+import re
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+from scipy import stats
+
+import rankfold
+from tables_for_tests import expand_table
+
+pytestmark = pytest.mark.browser
+
+QUICKSTART = Path(__file__).parents[2] / "example_notebooks" / "quickstart.ipynb"
+DASH = "–"
+# Heatmap cells coloured by counts; Vega labels each one "<col>: a; <row>: b; counts: n".
+COUNT_CELLS = (
+    ".rankfold-heatmap .mark-rect path[aria-roledescription='rect mark'][aria-label*='; counts: ']"
+)
+
+
+def shown(value: float) -> str:
+    """How the measures panel writes an estimate: 4 decimals, a dash when undefined."""
+    return DASH if np.isnan(value) else f"{value:.4f}"
+
+
+def brute_force_pairs(counts: np.ndarray) -> tuple[int, int]:
+    """Concordant and discordant pairs of units, visiting every pair of cells.
+
+    Goodman & Kruskal (1954): a pair is concordant when one unit is higher on both variables,
+    discordant when it is higher on one and lower on the other.
+    """
+    concordant = discordant = 0
+    n_rows, n_cols = counts.shape
+    for i in range(n_rows):
+        for j in range(n_cols):
+            for k in range(i + 1, n_rows):
+                for m in range(n_cols):
+                    if m > j:
+                        concordant += int(counts[i, j] * counts[k, m])
+                    elif m < j:
+                        discordant += int(counts[i, j] * counts[k, m])
+    return concordant, discordant
+
+
+def heatmap_counts(explorer, row_name: str, col_name: str) -> pd.DataFrame:
+    """The counts the heatmap's cells announce in their accessible labels, as a table."""
+    labels = explorer.locator(COUNT_CELLS).evaluate_all(
+        "paths => paths.map((p) => p.getAttribute('aria-label'))"
+    )
+    cells = []
+    for label in labels:
+        fields = dict(part.split(": ", 1) for part in label.split("; "))
+        cells.append((fields[row_name], fields[col_name], float(fields["counts"].replace(",", ""))))
+    return pd.DataFrame(cells, columns=["row", "col", "count"]).pivot(
+        index="row", columns="col", values="count"
+    )
+
+
+def estimate_on_page(explorer, key: str) -> float:
+    return float(explorer.locator(f"td.rankfold-estimate[data-measure='{key}']").inner_text())
+
+
+def test_offline_and_console_guards_catch_what_they_must(guarded_context) -> None:
+    """The guards can fail: a page that calls out and logs an error is caught."""
+    with guarded_context() as (page, guard):
+        page.set_content("<p>guard check</p>")
+        page.evaluate(
+            """async () => {
+                await fetch('http://rankfold-offline-check.invalid/x').catch(() => null);
+                const socket = new WebSocket('ws://rankfold-offline-check.invalid/socket');
+                await new Promise((done) => { socket.onclose = done; socket.onerror = done; });
+                console.error('rankfold guard check');
+            }"""
+        )
+    assert guard.outside_requests == [
+        "http://rankfold-offline-check.invalid/x",
+        "ws://rankfold-offline-check.invalid/socket",
+    ]
+    assert any("rankfold guard check" in e for e in guard.console_errors)
+
+
+def test_quickstart_explorer_in_the_browser(open_notebook, tmp_path, request) -> None:
+    from playwright.sync_api import expect
+
+    notebook = open_notebook(QUICKSTART)
+    page = notebook.page
+    page.set_viewport_size({"width": 1500, "height": 2000})  # the whole explorer in view
+    notebook.close_left_sidebar()
+    notebook.run_all_cells()
+
+    # The notebook's explorer, drawn with its heatmap (an SVG Vega view), as the reader sees it.
+    explorer = page.locator(".jp-OutputArea-output .rankfold-explorer").first
+    explorer.locator(".rankfold-heatmap .mark-rect path").first.wait_for()
+    explorer.screenshot(path=tmp_path / "explorer.png")
+    readme_path = request.config.getoption("--readme-screenshot")
+    if readme_path:
+        Path(readme_path).parent.mkdir(parents=True, exist_ok=True)
+        explorer.screenshot(path=readme_path)
+
+    # Back to the table as collected, coloured by counts (the notebook's cells left exclusions,
+    # merges and another colouring in place), so the expected numbers follow from the page.
+    reset = explorer.locator(".rankfold-reset")
+    if reset.is_enabled():
+        reset.click()
+    expect(explorer.locator(".rankfold-step-list")).to_have_count(0)
+    explorer.locator(".rankfold-colour-by button", has_text=re.compile(r"^counts$")).click()
+    expect(explorer.locator(".rankfold-layer-picker select")).to_have_value("none")
+    expect(explorer.locator(".rankfold-weight-picker select")).to_have_value("none")
+
+    # Pick another column variable in the page's dropdown.
+    row_name = explorer.locator(".rankfold-row-picker select").input_value()
+    col_picker = explorer.locator(".rankfold-col-picker select")
+    offered = col_picker.locator("option").evaluate_all("os => os.map((o) => o.value)")
+    col_name = next(x for x in offered if x not in (row_name, col_picker.input_value()))
+    col_picker.select_option(col_name)
+    expect(explorer.locator(".rankfold-editor-cols")).to_contain_text(f"columns: {col_name}")
+
+    # Merge its last two categories with the category editor's toggle.
+    df = rankfold.demo.transit_survey()  # the quickstart's data
+    collected = rankfold.table(df, row_name, col_name)
+    upper, lower = collected.col_labels[-2:]
+    explorer.locator(
+        f".rankfold-editor-cols .rankfold-merge-toggle[title='Merge {upper} and {lower}']"
+    ).click()
+    table = collected.merge("cols", [[upper, lower]])
+    expect(explorer.locator(".rankfold-step-list li")).to_have_count(1)
+    expect(explorer.locator(COUNT_CELLS)).to_have_count(table.shape[0] * table.shape[1])
+    expect(explorer.locator(".rankfold-message-error")).to_have_count(0)
+
+    # The heatmap shows the merged table, as pandas cross-tabulates it.
+    row_labels = [str(x) for x in table.row_labels]
+    col_labels = [str(x) for x in table.col_labels]
+    merged = df[col_name].astype(object).replace({upper: col_labels[-1], lower: col_labels[-1]})
+    reference = pd.crosstab(df[row_name].astype(object), merged)
+    np.testing.assert_array_equal(
+        heatmap_counts(explorer, row_name, col_name).loc[row_labels, col_labels].to_numpy(),
+        reference.loc[row_labels, col_labels].to_numpy(),
+    )
+
+    # Every measure on the page is the core's value for this state, as the panel writes it ...
+    for key, value in table.measures()["estimate"].items():
+        expect(explorer.locator(f"td.rankfold-estimate[data-measure='{key}']")).to_have_text(
+            shown(value)
+        )
+    # ... and the main ones match references outside the project (to the 4 decimals shown).
+    counts = table.counts.to_numpy()
+    concordant, discordant = brute_force_pairs(counts)
+    # Goodman & Kruskal (1954): gamma = (C - D) / (C + D).
+    assert estimate_on_page(explorer, "gamma") == pytest.approx(
+        (concordant - discordant) / (concordant + discordant), abs=5e-5
+    )
+    rows, cols = expand_table(counts)
+    assert estimate_on_page(explorer, "tau_b") == pytest.approx(  # scipy.stats, tau-b variant
+        stats.kendalltau(rows, cols).statistic, abs=5e-5
+    )
+    assert estimate_on_page(explorer, "somers_d_col_given_row") == pytest.approx(
+        stats.somersd(counts).statistic, abs=5e-5  # scipy.stats: a table gives D(column | row)
+    )
+    assert estimate_on_page(explorer, "pearson_chi_square") == pytest.approx(
+        stats.chi2_contingency(counts, correction=False).statistic, abs=5e-5  # scipy.stats
+    )
+
+    # Click a heatmap cell and follow it in the pair view.
+    i, j = 1, 1
+    row_label, col_label = row_labels[i], col_labels[j]
+    cell = explorer.locator(
+        f"{COUNT_CELLS}[aria-label^='{col_name}: {col_label}; {row_name}: {row_label};']"
+    )
+    box = cell.bounding_box()  # includes the white outline: aim well inside, above the number
+    cell.click(position={"x": box["width"] * 0.2, "y": box["height"] * 0.25})
+    explorer.locator(".rankfold-sections .lm-TabBar-tab", has_text=re.compile(r"^Pairs$")).click()
+    expect(explorer.locator(".rankfold-pair-view svg")).to_contain_text(
+        f"Pairs with a unit in ({row_label}, {col_label})"
+    )
+    expect(explorer.locator(".rankfold-pair-cell select option:checked")).to_have_text(
+        f"{row_label} × {col_label}"
+    )
+    # The pairs this cell forms, region by region, counted here by slicing the table.
+    n = counts[i, j]
+    by_region = {
+        "above_left": n * counts[:i, :j].sum(),
+        "below_right": n * counts[i + 1:, j + 1:].sum(),
+        "above_right": n * counts[:i, j + 1:].sum(),
+        "below_left": n * counts[i + 1:, :j].sum(),
+    }
+    for region, pairs in by_region.items():
+        row = explorer.locator(f".rankfold-pair-table tr[data-region='{region}']")
+        expect(row).to_have_attribute("data-pairs", f"{pairs:g}")
+    explorer.screenshot(path=tmp_path / "pair_view.png")
+    print(f"screenshots: {tmp_path / 'explorer.png'} and {tmp_path / 'pair_view.png'}")

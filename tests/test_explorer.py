@@ -1,0 +1,327 @@
+"""The explorer driven without a browser: controls are found by their CSS classes and operated
+programmatically; every result must equal what the core gives for the same steps."""
+
+from __future__ import annotations
+
+import json
+import re
+
+import numpy as np
+import pandas as pd
+import pytest
+import rankfold
+from rankfold.widgets import render as render_module
+
+ROW, COL = "trip_length", "service_rating"
+
+
+# ----------------------------------------------------------------------------- helpers
+def find(root, css: str) -> list:
+    """Widgets carrying a CSS class, in document order."""
+    found, stack = [], [root]
+    while stack:
+        widget = stack.pop()
+        if css in getattr(widget, "_dom_classes", ()):
+            found.append(widget)
+        stack.extend(reversed(getattr(widget, "children", ())))
+    return found
+
+
+def one(root, css: str):
+    (widget,) = find(root, css)
+    return widget
+
+
+def category_row(ex, axis: str, label: str):
+    editor = one(ex, f"rankfold-editor-{axis}")
+    for row in find(editor, "rankfold-category"):
+        if f"rankfold-category-label'>{label}<" in row.children[0].value:
+            return row
+    raise AssertionError(f"no category {label!r} on {axis}")
+
+
+def leave_out(ex, axis: str, label: str) -> None:
+    one(category_row(ex, axis, label), "rankfold-exclude").click()
+
+
+def merge_toggle(ex, upper: str, lower: str):
+    (toggle,) = [t for t in find(ex, "rankfold-merge-toggle")
+                 if t.tooltip == f"Merge {upper} and {lower}"]
+    return toggle
+
+
+def open_tab(ex, title: str) -> None:
+    tabs = one(ex, "rankfold-sections")
+    tabs.selected_index = list(tabs.titles).index(title)
+
+
+def message(ex) -> str:
+    return one(ex, "rankfold-message").value
+
+
+def chart_spec(ex, css: str) -> dict:
+    pane = one(ex, css)
+    (chart,) = pane.children
+    return chart.spec
+
+
+def frame_fingerprint(df: pd.DataFrame) -> tuple:
+    return (pd.util.hash_pandas_object(df, index=True).to_numpy().tobytes(),
+            tuple(map(str, df.dtypes)), tuple(df.columns), dict(df.attrs))
+
+
+def assert_same_table(ex, expected: rankfold.OrdinalTable) -> None:
+    """Counts, labels and measures equal the core's, exactly."""
+    pd.testing.assert_frame_equal(ex.table.counts, expected.counts, check_exact=True)
+    pd.testing.assert_frame_equal(ex.measures, expected.measures(), check_exact=True)
+    assert ex.steps == expected.steps[expected.initial_steps:]
+
+
+@pytest.fixture
+def df() -> pd.DataFrame:
+    return rankfold.demo.transit_survey()
+
+
+@pytest.fixture
+def ex(df):
+    return rankfold.explore(df, ROW, COL)
+
+
+# ------------------------------------------------------------------------------- tests
+def test_defaults_pick_the_first_two_orderable_columns(df):
+    ex = rankfold.explore(df)
+    assert (ex.state.row, ex.state.col) == (ROW, COL)
+    options = list(one(ex, "rankfold-row-picker").options)
+    assert "district" not in options and "survey_weight" not in options  # cannot be ordered
+    assert "trips_per_week" in options
+    assert_same_table(ex, rankfold.table(df, ROW, COL))
+
+
+def test_buttons_and_toggles_match_the_core(ex, df):
+    leave_out(ex, "cols", "no answer")
+    merge_toggle(ex, "10–20 km", "over 20 km").value = True
+    merge_toggle(ex, "very poor", "poor").value = True
+    expected = (rankfold.table(df, ROW, COL).exclude("cols", ["no answer"])
+                .merge("rows", [["10–20 km", "over 20 km"]])
+                .merge("cols", [["very poor", "poor"]]))
+    assert_same_table(ex, expected)
+    steps = one(ex, "rankfold-steps").children[0].value
+    assert steps.count("<li>") == 3 and "exclude no answer" in steps
+    assert message(ex) == ""
+
+
+def test_to_code_runs_and_reproduces_the_numbers(ex, df):
+    leave_out(ex, "cols", "no answer")
+    merge_toggle(ex, "5–10 km", "10–20 km").value = True
+    namespace = {"df": df}
+    exec(ex.to_code(), namespace)
+    pd.testing.assert_frame_equal(namespace["measures"], ex.measures, check_exact=True)
+    pd.testing.assert_frame_equal(namespace["table"].counts, ex.table.counts, check_exact=True)
+    # The coded columns tabulate back to the table; source: pandas.crosstab
+    coded = namespace["coded"]
+    crossed = pd.crosstab(coded[ROW], coded[COL])
+    np.testing.assert_array_equal(crossed.to_numpy(), ex.table.counts.to_numpy())
+    assert list(crossed.index) == list(ex.table.row_labels)
+    pd.testing.assert_frame_equal(ex.coded_columns(), coded)
+
+
+def test_the_users_frame_is_never_modified(df):
+    before = frame_fingerprint(df)
+    ex = rankfold.explore(df, ROW, COL)
+    leave_out(ex, "cols", "no answer")
+    merge_toggle(ex, "10–20 km", "over 20 km").value = True
+    one(ex, "rankfold-swap").click()
+    one(ex, "rankfold-row-picker").value = "age_band"
+    ex.coded_columns()
+    ex.reset()
+    assert frame_fingerprint(df) == before
+
+
+def test_a_single_category_is_refused_and_the_state_kept(ex):
+    merge_toggle(ex, "very poor", "poor").value = True
+    merge_toggle(ex, "very poor–poor", "fair").value = True
+    merge_toggle(ex, "very poor–fair", "good").value = True
+    merge_toggle(ex, "very poor–good", "very good").value = True
+    kept = ex.table
+    last = merge_toggle(ex, "very poor–very good", "no answer")
+    last.value = True
+    assert "single category" in message(ex)
+    assert ex.table is kept and len(ex.steps) == 4
+    assert last.value is False  # the boundary shows as still open
+    # each toggle names the merged category by the first and last category as collected
+    assert ex.table.col_labels == ("very poor–very good", "no answer")
+
+
+def test_excluding_every_unit_is_refused(df):
+    padded = df.assign(trip_length=df[ROW].cat.add_categories(["over 50 km", "over 90 km"]))
+    ex = rankfold.explore(padded, ROW, COL)
+    for label in ("under 2 km", "2–5 km", "5–10 km", "10–20 km"):
+        leave_out(ex, "rows", label)
+    kept = ex.table
+    leave_out(ex, "rows", "over 20 km")
+    assert "no units" in message(ex)
+    assert ex.table is kept and ex.table.n > 0
+
+
+def test_scripting_errors_raise_show_and_keep_state(ex):
+    ex.exclude("cols", "no answer")
+    with pytest.raises(ValueError, match="not neighbours"):
+        ex.merge("rows", [["under 2 km", "5–10 km"]])
+    assert "not neighbours" in message(ex)
+    assert len(ex.steps) == 1
+    with pytest.raises(ValueError, match="axis must be 'rows' or 'cols'"):
+        ex.merge("columns", [["poor", "fair"]])
+    ex.merge("cols", [["poor", "fair"]])
+    assert message(ex) == ""  # a successful change clears the message
+
+
+def test_swap_keeps_edits_with_their_variables(ex, df):
+    leave_out(ex, "cols", "no answer")
+    merge_toggle(ex, "10–20 km", "over 20 km").value = True
+    one(ex, "rankfold-swap").click()
+    expected = (rankfold.table(df, COL, ROW).exclude("rows", ["no answer"])
+                .merge("cols", [["10–20 km", "over 20 km"]]))
+    assert_same_table(ex, expected)
+    assert one(ex, "rankfold-row-picker").value == COL
+
+
+def test_changing_a_variable_drops_only_its_edits(ex, df):
+    leave_out(ex, "cols", "no answer")
+    merge_toggle(ex, "10–20 km", "over 20 km").value = True
+    one(ex, "rankfold-row-picker").value = "age_band"
+    assert_same_table(ex, rankfold.table(df, "age_band", COL).exclude("cols", ["no answer"]))
+    one(ex, "rankfold-col-picker").value = "age_band"  # the other axis's variable: a swap
+    assert (ex.state.row, ex.state.col) == (COL, "age_band")
+
+
+def test_undo_and_reset_buttons(ex, df):
+    leave_out(ex, "cols", "no answer")
+    merge_toggle(ex, "very poor", "poor").value = True
+    one(ex, "rankfold-undo").click()
+    assert_same_table(ex, rankfold.table(df, ROW, COL).exclude("cols", ["no answer"]))
+    one(ex, "rankfold-reset").click()
+    assert_same_table(ex, rankfold.table(df, ROW, COL))
+    assert one(ex, "rankfold-undo").disabled
+
+
+def test_reorder_buttons_only_without_a_declared_order(df):
+    ex = rankfold.explore(df, "trips_per_week", COL)
+    first = find(one(ex, "rankfold-editor-rows"), "rankfold-move-down")[0]
+    first.click()
+    expected = rankfold.table(df, "trips_per_week", COL)
+    order = list(expected.row_labels)
+    order[0], order[1] = order[1], order[0]
+    assert_same_table(ex, expected.reorder("rows", order))
+    declared = find(one(ex, "rankfold-editor-cols"), "rankfold-move-down")
+    assert all(b.layout.display == "none" for b in declared)
+
+
+def test_clicking_a_heatmap_cell_explains_its_pairs(ex):
+    ex.exclude("cols", ["no answer"])
+    (chart,) = one(ex, "rankfold-heatmap").children
+    # what the page sends back after a click on the cell in row 1, column 3
+    chart._vl_selections = {"cell": {"value": {"vlPoint": {"or": [
+        {"row_position": 1, "col_position": 3}]}}, "store": []}}
+    assert ex.state.chosen_cell == ("2–5 km", "good")
+    regions = rankfold.pair_regions(ex.table.counts.to_numpy(), 1, 3)
+    open_tab(ex, "Pairs")
+    summary = one(ex, "rankfold-pair-summary").value
+    for key, pairs in regions.summary["pairs"].items():
+        assert f'data-region="{key}" data-pairs="{pairs:g}"' in summary
+    assert one(ex, "rankfold-pair-cell").value == ("2–5 km", "good")
+    # an empty selection (a redrawn chart) is not a click
+    chart._vl_selections = {"cell": {"value": None, "store": []}}
+    assert ex.state.chosen_cell == ("2–5 km", "good")
+
+
+def test_pair_cell_dropdown_and_a_vanished_cell(ex):
+    open_tab(ex, "Pairs")  # tabs are drawn when opened
+    cell = one(ex, "rankfold-pair-cell")
+    cell.value = ("over 20 km", "poor")
+    assert ex.state.chosen_cell == ("over 20 km", "poor")
+    assert "rankfold-pair-table" in one(ex, "rankfold-pair-summary").value
+    merge_toggle(ex, "10–20 km", "over 20 km").value = True
+    assert ex.state.chosen_cell == ("over 20 km", "poor")  # kept in the state ...
+    assert ex.chart("pairs") is None  # ... but no longer a cell of the table
+    assert cell.value is None and one(ex, "rankfold-pair-summary").value == ""
+
+
+def test_every_colour_choice_draws_the_table_and_no_chart_holds_a_url(ex):
+    ex.set_view(chosen_cell=("2–5 km", "good"))
+    colour = one(ex, "rankfold-colour-by")
+    for key in [value for _, value in colour.options]:
+        colour.value = key
+        assert ex.state.colour_by == key
+        spec = chart_spec(ex, "rankfold-heatmap")
+        cells = [c for c in json.loads(spec["data"]["values"]) if "row_position" in c]
+        expected = rankfold.cell_figures(ex.table)[key].to_numpy(dtype=float)
+        shown = np.array([np.nan if c["value"] is None else c["value"] for c in cells])
+        np.testing.assert_array_equal(shown, expected)
+        assert not re.search(r"https?://", json.dumps(spec))
+    for title, css in (("Pairs", "rankfold-pair-view"), ("Compare", "rankfold-comparison")):
+        open_tab(ex, title)
+        assert not re.search(r"https?://", json.dumps(chart_spec(ex, css)))
+    for name in ("heatmap", "pairs", "comparison"):
+        ex.chart(name).to_dict(validate=True)  # a valid Vega-Lite specification
+
+
+def test_measures_panel_shows_estimates_warnings_and_cautions(ex, df):
+    panel = one(ex, "rankfold-measures-box").value
+    for key, estimate in ex.measures["estimate"].items():
+        shown = "–" if np.isnan(estimate) else f"{estimate:.4f}"
+        assert f'<td class="rankfold-estimate" data-measure="{key}">{shown}</td>' in panel
+    assert f"Somers&#x27; d ({COL} | {ROW})" in panel
+    assert 'data-measure="pearson_chi_square"' in panel
+    assert "not evidence that one variable causes" in panel
+    # the demo's raw table is sparse (Cochran's rule fails); merging the rare extremes fixes it
+    assert ex.table.diagnostics().warnings and "rankfold-warning" in panel
+    leave_out(ex, "cols", "no answer")
+    merge_toggle(ex, "10–20 km", "over 20 km").value = True
+    merge_toggle(ex, "very poor", "poor").value = True
+    assert not ex.table.diagnostics().warnings
+    assert "rankfold-warning" not in one(ex, "rankfold-measures-box").value
+
+
+def test_comparison_puts_collected_and_current_side_by_side(ex, df):
+    leave_out(ex, "cols", "no answer")
+    open_tab(ex, "Compare")
+    html = one(ex, "rankfold-comparison-summary").value
+    collected = rankfold.table(df, ROW, COL).measures().loc["gamma", "estimate"]
+    current = ex.measures.loc["gamma", "estimate"]
+    row = re.search(r'<tr data-measure="gamma">.*?</tr>', html).group(0)
+    assert f"<td>{collected:.4f}</td>" in row and f"<td>{current:.4f}</td>" in row
+    assert f">{current - collected:.4f}<" in row
+
+
+def test_export_files(ex, tmp_path, monkeypatch):
+    ex.exclude("cols", ["no answer"])
+    ex.save_chart("heatmap", str(tmp_path / "h.json"))
+    assert json.loads((tmp_path / "h.json").read_text())["layer"]
+    ex.save_chart("comparison", str(tmp_path / "c.svg"))
+    assert (tmp_path / "c.svg").read_text().lstrip().startswith("<svg")
+    ex.save_chart("heatmap", str(tmp_path / "h.png"))
+    assert (tmp_path / "h.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"  # PNG signature
+    with pytest.raises(ValueError, match="end the file name"):
+        ex.save_chart("heatmap", str(tmp_path / "h.gif"))
+    # the Export tab's buttons write next to the notebook and say where
+    monkeypatch.chdir(tmp_path)
+    open_tab(ex, "Export")
+    one(ex, "rankfold-export-name").value = "demo"
+    one(ex, "rankfold-export-columns").click()
+    assert "Saved the coded columns" in message(ex)
+    saved = pd.read_csv(tmp_path / "demo-coded-columns.csv", index_col=0)
+    assert saved[COL].isna().sum() == (ex.coded_columns()[COL].isna()).sum()
+    one(ex, "rankfold-export-html").click()
+    page = (tmp_path / "demo-heatmap.html").read_text()
+    assert not re.search(r"<script[^>]+src=", page)  # the Vega libraries are inside the page
+    assert "demo-heatmap.html" in message(ex)
+
+
+def test_an_unexpected_failure_is_a_message_not_a_traceback(ex, monkeypatch):
+    def broken(*args, **kwargs):
+        raise RuntimeError("drawing failed")
+
+    monkeypatch.setattr(render_module, "heatmap_chart", broken)
+    one(ex, "rankfold-colour-by").value = "row_percent"
+    assert "Unexpected problem (RuntimeError: drawing failed)" in message(ex)
+    assert ex.state.colour_by == "count"

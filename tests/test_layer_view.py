@@ -1,0 +1,134 @@
+"""The explorer's layer and weight pickers and its layers view (small-multiple heatmaps on one
+colour scale, gamma per layer beside partial gamma). Data: rankfold.demo.clinic_waits, an
+invented, seeded survey of three imaginary clinics."""
+
+from __future__ import annotations
+
+import json
+import re
+
+import numpy as np
+import pandas as pd
+import pytest
+import rankfold
+from rankfold.widgets.layer_view import LayerSection, layer_heatmaps, layer_measures_html
+
+ROW, COL, LAYER = "wait", "satisfaction", "clinic"
+
+
+@pytest.fixture(scope="module")
+def visits() -> pd.DataFrame:
+    return rankfold.demo.clinic_waits(n=600, seed=3)
+
+
+@pytest.fixture(scope="module")
+def layered(visits):
+    return rankfold.table(visits, ROW, COL, layer=LAYER)
+
+
+def panels(chart) -> list[dict]:
+    """Per layer: title, the cells' (row, col, value) and the colour scale domain."""
+    out = []
+    for panel in chart.to_dict()["concat"]:
+        values = panel["data"]["values"]
+        values = json.loads(values) if isinstance(values, str) else values
+        rect = next(layer for layer in panel["layer"] if layer["mark"]["type"] == "rect")
+        out.append({"title": panel["title"]["text"],
+                    "cells": {(v["row"], v["col"]): v["value"] for v in values
+                              if "row_position" in v},  # the rest are margin totals
+                    "domain": rect["encoding"]["color"]["scale"]["domain"]})
+    return out
+
+
+def brute_force_gamma(x: np.ndarray, y: np.ndarray) -> float:
+    """(C - D) / (C + D) by enumerating every pair of records (Goodman & Kruskal 1954)."""
+    s = np.sign(x[:, None] - x[None, :]) * np.sign(y[:, None] - y[None, :])
+    return float(s[s > 0].size - s[s < 0].size) / float(s[s != 0].size)
+
+
+def test_one_heatmap_per_layer_with_each_layers_counts(visits, layered):
+    shown = panels(layer_heatmaps(layered, "count"))
+    # Outside reference: pandas.crosstab of the records of each clinic.
+    crosstabs = {c: pd.crosstab(g[ROW], g[COL], dropna=False)
+                 for c, g in visits.groupby(LAYER, observed=False)}
+    assert [p["title"] for p in shown] == [f"{LAYER} = {c}" for c in rankfold.demo.CLINICS]
+    for panel, clinic in zip(shown, rankfold.demo.CLINICS, strict=True):
+        table = crosstabs[clinic]
+        for (r, c), value in panel["cells"].items():
+            assert value == table.loc[r, c]
+    # one colour scale: every panel spans 0 .. the largest count over all clinics
+    largest = max(float(t.to_numpy().max()) for t in crosstabs.values())
+    assert all(p["domain"] == [0, largest] for p in shown)
+
+
+def test_diverging_scale_is_shared_and_symmetric(visits, layered):
+    shown = panels(layer_heatmaps(layered, "adjusted_residual"))
+    # Haberman (1973) adjusted residuals computed here from each clinic's crosstab.
+    largest = 0.0
+    for _, group in visits.groupby(LAYER, observed=True):
+        n = pd.crosstab(group[ROW], group[COL]).to_numpy(dtype=float)
+        total = n.sum()
+        p_r, p_c = n.sum(axis=1) / total, n.sum(axis=0) / total
+        m = total * np.outer(p_r, p_c)
+        residual = (n - m) / np.sqrt(m * np.outer(1 - p_r, 1 - p_c))
+        largest = max(largest, float(np.nanmax(np.abs(residual))))
+    for panel in shown:
+        assert panel["domain"] == pytest.approx([-largest, largest])
+
+
+def test_panel_lists_each_layers_gamma_beside_partial(visits, layered):
+    html = layer_measures_html(layered, layered.measures(), layered.tests())
+    codes = {v: visits[v].cat.codes.to_numpy() for v in (ROW, COL)}
+    for clinic in rankfold.demo.CLINICS:
+        mask = (visits[LAYER] == clinic).to_numpy()
+        expected = brute_force_gamma(codes[ROW][mask], codes[COL][mask])
+        row = re.search(rf'data-layer="{clinic}">.*?rankfold-estimate">([-0-9.]+)<', html)
+        assert float(row.group(1)) == pytest.approx(expected, abs=5e-5)
+    partial = re.search(r'data-measure="partial_gamma">.*?rankfold-estimate">([-0-9.]+)<', html)
+    assert float(partial.group(1)) == pytest.approx(
+        layered.partial_measures().loc["partial_gamma", "estimate"], abs=5e-5)
+    for key in ("gamma_homogeneity", "cmh_correlation"):
+        assert f'data-test="{key}"' in html
+    assert "not evidence of a cause" in html
+
+
+def test_explorer_takes_layer_and_weights(visits):
+    before = visits.copy(deep=True)
+    ex = rankfold.explore(visits, ROW, COL, layer=LAYER, weight="visit_weight",
+                          weight_kind="sampling")
+    assert (ex.table.layer_name, ex.table.weight_kind) == (LAYER, "sampling")
+    assert "Kish effective n" in ex.measures.loc["gamma", "note"]
+    ex.merge("cols", [["very unhappy", "unhappy"]])
+    # merges reach every layer: compare with pandas on recoded records (outside reference)
+    recoded = visits.assign(**{COL: visits[COL].astype(str).replace("very unhappy", "unhappy")})
+    for clinic in rankfold.demo.CLINICS:
+        own = recoded[recoded[LAYER] == clinic]
+        expected = pd.crosstab(own[ROW], own[COL], values=own["visit_weight"], aggfunc="sum")
+        expected = expected.fillna(0.0)
+        got = ex.table.layer_counts.xs(clinic, level=0)
+        assert float(got.to_numpy().sum()) == pytest.approx(expected.to_numpy().sum())
+        assert float(got.iloc[:, 0].sum()) == pytest.approx(float(expected["unhappy"].sum()))
+    section = next(s for s in ex._sections if isinstance(s, LayerSection))
+    section.show(ex._rendered)
+    assert 'data-measure="partial_gamma"' in section._numbers.value
+    pd.testing.assert_frame_equal(visits, before)
+
+
+def test_pickers_change_roles_and_refuse_conflicts(visits):
+    ex = rankfold.explore(visits, ROW, COL)
+    pickers = ex._pickers
+    pickers._layer.value = LAYER
+    assert ex.state.layer == LAYER and ex.table.cells.shape[0] == 3
+    pickers._layer.value = ROW  # the row variable cannot also be the layer
+    assert ex.state.layer == LAYER and pickers._layer.value == LAYER
+    assert "own column" in ex._message.value
+    pickers._weight.value = "visit_weight"
+    pickers._kind.value = "sampling"
+    assert (ex.state.weight, ex.state.weight_kind) == ("visit_weight", "sampling")
+    pickers._weight.value = None  # dropping the weight drops the sampling reading too
+    assert (ex.state.weight, ex.state.weight_kind) == (None, "frequency")
+    assert pickers._kind.disabled
+    pickers._layer.value = None
+    section = next(s for s in ex._sections if isinstance(s, LayerSection))
+    section.show(ex._rendered)
+    assert "Choose a layer variable" in section._numbers.value

@@ -1,0 +1,103 @@
+"""One place on screen that shows Altair charts offline and reports clicks on them.
+
+Altair 6 emits Vega-Lite 6, which JupyterLab 4's built-in renderer does not know, and a plainly
+displayed chart would fetch Vega from the internet. :class:`altair.JupyterChart` in offline
+mode bundles Vega through vl-convert, so charts render with no network at all.
+"""
+
+from __future__ import annotations
+
+import json
+from collections.abc import Callable, Sequence
+from typing import Any
+
+import altair as alt
+import ipywidgets as widgets
+from altair.utils.schemapi import debug_mode
+from altair.utils.selection import PointSelection
+
+__all__ = ["ChartPane", "CLICK", "building", "inline_data"]
+
+#: Name of the point selection a clickable chart declares; its fields identify the cell.
+CLICK = "cell"
+
+_EMBED_OPTIONS = {"actions": False, "renderer": "svg"}
+
+
+def building():
+    """Context for building charts without Altair's check of every part as it is made.
+
+    The finished specification is still checked in full once, when the pane serialises it
+    (and in the tests); skipping the per-part checks makes a chart several times faster.
+    """
+    return debug_mode(False)
+
+
+def inline_data(records: Sequence[dict[str, Any]]) -> alt.Data:
+    """Chart data written into the specification as one JSON text.
+
+    Vega-Lite accepts inline values as text with a format; checking the specification then
+    treats the data as one string instead of checking every record, which keeps redrawing fast.
+    """
+    return alt.Data(values=json.dumps(list(records)), format=alt.DataFormat(type="json"))
+
+
+def _offline_chart_class() -> type[alt.JupyterChart]:
+    alt.JupyterChart.enable_offline()
+    return alt.JupyterChart
+
+
+class ChartPane:
+    """Shows one chart at a time; a new chart replaces the old one in place.
+
+    Parameters
+    ----------
+    css_class : str
+        CSS class of the pane, for browser tests and styling.
+    on_click : callable, optional
+        Called with the clicked datum's fields (a dict) when the chart declares a point
+        selection named :data:`CLICK`.
+    placeholder : str
+        HTML shown while there is no chart.
+    """
+
+    def __init__(
+        self,
+        css_class: str,
+        on_click: Callable[[dict[str, Any]], None] | None = None,
+        placeholder: str = "",
+    ) -> None:
+        self._chart = _offline_chart_class()(None, embed_options=_EMBED_OPTIONS)
+        self._placeholder = widgets.HTML(placeholder)
+        self.widget = widgets.Box([self._placeholder])
+        self.widget.add_class(css_class)
+        self._on_click = on_click
+        if on_click is not None:
+            self._chart.observe(self._clicked, names="_vl_selections")
+
+    def show(self, chart: alt.TopLevelMixin | None) -> None:
+        """Display ``chart`` (or the placeholder for None)."""
+        if chart is None:
+            self.widget.children = [self._placeholder]
+            return
+        with self._chart.hold_sync():
+            self._chart.chart = chart
+            # "$schema" is only a version tag, never fetched; leave it out so the page holds
+            # no outside address at all.
+            self._chart.spec = {k: v for k, v in self._chart.spec.items() if k != "$schema"}
+        if self.widget.children != (self._chart,):
+            self.widget.children = [self._chart]
+
+    @property
+    def spec(self) -> dict | None:
+        """The Vega-Lite specification currently sent to the page."""
+        return self._chart.spec
+
+    def _clicked(self, change: dict) -> None:
+        selection = change["new"].get(CLICK)
+        if not selection:
+            return
+        points = PointSelection.from_vega(CLICK, selection["value"], selection["store"]).value
+        # A new chart starts with an empty selection: that is not a click.
+        if points:
+            self._on_click(points[0])

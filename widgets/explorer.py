@@ -1,0 +1,456 @@
+"""The notebook explorer: one state, controls that edit it, views derived from it.
+
+Flow: a control (or a scripting call) proposes a function from the current
+:class:`~rankfold.widgets.state.ExplorerState` to a new one; :func:`render` derives the table,
+measures and figures through the core; every view shows that result. A proposal that fails
+leaves the previous state on screen and shows a readable message instead of a traceback.
+
+CSS classes (stable, for styling and browser tests)
+---------------------------------------------------
+``rankfold-explorer``
+    The whole explorer.
+``rankfold-row-picker``, ``rankfold-col-picker``, ``rankfold-swap``
+    Row and column variable Dropdowns and the swap button (inside ``rankfold-pickers``).
+``rankfold-layer-picker``, ``rankfold-weight-picker``, ``rankfold-weight-kind``
+    Layer and weight Dropdowns ("none" first) and the weight kind (also in the pickers).
+``rankfold-layer-measures-box``, ``rankfold-layer-heatmaps``
+    The Layers tab: ``table.rankfold-layer-measures`` (rows carry ``data-layer`` or
+    ``data-measure``: ``partial_gamma``, ``gamma``), ``p.rankfold-layer-test`` lines
+    (``data-test``: ``gamma_homogeneity``, ``cmh_correlation``), and one heatmap per layer.
+``rankfold-message``
+    Message area; holds a ``div.rankfold-message-error`` or ``div.rankfold-message-info``.
+``rankfold-editor-rows``, ``rankfold-editor-cols`` (both also ``rankfold-editor``)
+    Category editors. Each category is an ``rankfold-category`` row with a label
+    (``span.rankfold-category-label``), its count (``span.rankfold-category-count``), a
+    ``rankfold-exclude`` button and, when the order was not declared, ``rankfold-move-up`` and
+    ``rankfold-move-down`` buttons. Between neighbours sits a ``rankfold-merge-toggle``
+    button whose tooltip (title) reads ``Merge <upper> and <lower>``.
+``rankfold-steps``, ``rankfold-undo``, ``rankfold-reset``
+    The list of applied steps (``ol.rankfold-step-list``) with undo and reset.
+``rankfold-sections``
+    The tabs (Heatmap, Pairs, Compare, Codings, Export by default; see :data:`SECTIONS`).
+``rankfold-sweep``, ``rankfold-sweep-summary``, ``rankfold-sweep-run``, ``rankfold-sweep-use``
+    The codings view: chart, range sentence and suggestion, sweep and apply buttons.
+``rankfold-colour-by``, ``rankfold-heatmap``
+    The heatmap's colour choice (ToggleButtons) and its chart (an SVG Vega view).
+``rankfold-pair-cell``, ``rankfold-pair-view``, ``rankfold-pair-summary``
+    The pair view's cell Dropdown, chart, and ``table.rankfold-pair-table`` whose rows carry
+    ``data-region`` and ``data-pairs``.
+``rankfold-comparison``, ``rankfold-comparison-summary``
+    The comparison chart and its ``table.rankfold-comparison-table`` (rows carry
+    ``data-measure``).
+``rankfold-export`` with ``rankfold-export-chart``, ``rankfold-export-name``,
+``rankfold-export-html`` / ``-json`` / ``-png`` / ``-svg``, ``rankfold-export-columns``,
+``rankfold-code``
+    Export controls and the code of the current table.
+``rankfold-measures-panel``
+    The measures: ``table.rankfold-measures`` whose rows carry ``data-measure`` (the measure
+    key, e.g. ``gamma``, plus ``pearson_chi_square``) and whose ``td.rankfold-estimate`` cells
+    hold the estimate to 4 decimals; ``div.rankfold-warning`` for sparse-cell warnings and
+    ``ul.rankfold-cautions``.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Hashable, Mapping, Sequence
+from typing import Any
+
+import ipywidgets as widgets
+import pandas as pd
+from rankfold import OrdinalTable
+
+from . import formatting
+from .category_editor import CategoryEditor, StepsPanel
+from .comparison import ComparisonSection
+from .export import ExportSection, code_snippet, save_chart
+from .heatmap import HeatmapSection
+from .layer_view import LayerSection
+from .measures_panel import measures_html
+from .pair_view import PairSection
+from .pickers import VariablePickers
+from .render import Rendered, TableCache, render
+from .state import Edit, ExplorerState
+from .sweep_view import SweepSection
+from .table_mode import BackgroundCount, has_records, offer_for
+
+__all__ = ["Explorer", "explore", "SECTIONS"]
+
+#: The tabbed views, in order: (title, factory). A factory takes ``propose`` (a callable taking
+#: a function from state to new state) and ``notify`` (``notify(text, error=False)``) and
+#: returns an object with a ``widget`` and a ``show(rendered)`` method. Append to add a view.
+SECTIONS: list[tuple[str, Callable[[Callable, Callable], Any]]] = [
+    ("Heatmap", HeatmapSection),
+    ("Pairs", PairSection),
+    ("Compare", ComparisonSection),
+    ("Codings", SweepSection),
+    ("Export", ExportSection),
+    ("Layers", LayerSection),
+]
+
+_STYLE = """<style>
+.rankfold-explorer { color: var(--jp-ui-font-color1, inherit); }
+.rankfold-measures, .rankfold-comparison-table, .rankfold-pair-table {
+  border-collapse: collapse; font-variant-numeric: tabular-nums; margin: 4px 0; }
+.rankfold-measures th, .rankfold-measures td, .rankfold-comparison-table th,
+.rankfold-comparison-table td, .rankfold-pair-table th, .rankfold-pair-table td {
+  padding: 2px 8px; text-align: right;
+  border-bottom: 1px solid var(--jp-border-color2, rgba(128, 128, 128, 0.35)); }
+.rankfold-measures th[scope=row], .rankfold-comparison-table th[scope=row],
+.rankfold-pair-table td:first-child, .rankfold-pair-table td:nth-child(2) {
+  text-align: left; font-weight: normal; }
+.rankfold-measures td.rankfold-note { text-align: left; font-size: 90%; opacity: 0.8;
+  max-width: 30em; }
+.rankfold-group td { text-align: left; font-style: italic; opacity: 0.8; }
+.rankfold-warning, .rankfold-message-error, .rankfold-message-info {
+  padding: 4px 8px; margin: 6px 0; border-left: 4px solid #d08a00; }
+.rankfold-message-error { border-left-color: #c8382f; }
+.rankfold-message-info { border-left-color: #3a78b5; }
+.rankfold-hint { opacity: 0.7; }
+.rankfold-code pre { white-space: pre; overflow-x: auto; padding: 6px;
+  border: 1px solid var(--jp-border-color2, rgba(128, 128, 128, 0.35)); }
+.rankfold-layer-measures { border-collapse: collapse; font-variant-numeric: tabular-nums; }
+.rankfold-layer-measures th, .rankfold-layer-measures td { padding: 2px 8px; text-align: right;
+  border-bottom: 1px solid var(--jp-border-color2, rgba(128, 128, 128, 0.35)); }
+.rankfold-layer-measures th[scope=row], .rankfold-layer-measures td.rankfold-note,
+.rankfold-layer-measures thead th:first-child, .rankfold-layer-measures thead th:last-child {
+  text-align: left; }
+.rankfold-layer-measures th[scope=row] { font-weight: normal; }
+.rankfold-layer-measures td.rankfold-note { font-size: 90%; opacity: 0.8; max-width: 30em; }
+</style>"""
+
+
+def _axis(axis: str) -> str:
+    if axis not in ("rows", "cols"):
+        raise ValueError(f"axis must be 'rows' or 'cols'; got {axis!r}.")
+    return axis
+
+
+class Explorer(widgets.VBox):
+    """Interactive explorer of two ordered variables of a DataFrame (see :func:`explore`).
+
+    The same state is driven by the controls and by the methods below; after every change
+    :attr:`table` and :attr:`measures` hold the current results.
+    """
+
+    def __init__(
+        self,
+        data: pd.DataFrame | OrdinalTable | Any,
+        row: str | None = None,
+        col: str | None = None,
+        *,
+        layer: str | None = None,
+        weight: str | None = None,
+        weight_kind: str = "frequency",
+        order: Mapping[str, Sequence[Hashable]] | None = None,
+    ) -> None:
+        offer = offer_for(data, order)  # refuses data it cannot explore
+        if offer.fixed:  # a ready table brings its own variables
+            row, col = row or offer.fixed["row"], col or offer.fixed["col"]
+            layer, weight = offer.fixed["layer"], offer.fixed["weight"]
+            weight_kind = offer.fixed["weight_kind"]
+        columns = offer.orderable
+        for name in (row, col):
+            if name is not None and name not in offer.columns:
+                raise ValueError(f"{name!r} is not a column; the columns are {offer.columns}.")
+        free = [c for c in columns if c not in (row, col, layer, weight)]
+        row = row if row is not None else (free.pop(0) if free else None)
+        col = col if col is not None else (free.pop(0) if free else None)
+        if row is None or col is None:
+            raise ValueError(
+                f"Need two columns that can be put in order; found {columns}. Ordered "
+                "Categoricals and numeric columns with few values qualify; give text columns an "
+                "order, e.g. explore(df, order={'answer': ['low', 'mid', 'high']})."
+            )
+        state = ExplorerState(
+            row=row, col=col, layer=layer, weight=weight, weight_kind=weight_kind,
+            order=tuple((k, tuple(v)) for k, v in (order or {}).items()),
+        )
+        self._cache = TableCache(data)
+        self._rendered: Rendered = render(state, self._cache)
+        self._syncing = False
+        self._message = widgets.HTML()
+        self._message.add_class("rankfold-message")
+        propose = self._propose
+        offered = columns + [c for c in (row, col) if c not in columns]
+        self._pickers = VariablePickers(offered, propose, layers=offer.layers,
+                                        weights=offer.weights)
+        self._counting = BackgroundCount()
+        self._editors = [CategoryEditor("rows", propose), CategoryEditor("cols", propose)]
+        self._steps = StepsPanel(propose)
+        self._sections = [factory(propose, self._notify) for _, factory in SECTIONS]
+        self._stale = set(range(len(self._sections)))
+        self._tabs = widgets.Tab([s.widget for s in self._sections],
+                                 titles=[title for title, _ in SECTIONS])
+        self._tabs.add_class("rankfold-sections")
+        self._tabs.observe(lambda _: self._show_sections(), names="selected_index")
+        self._measures = widgets.HTML()
+        self._measures.add_class("rankfold-measures-box")
+        left = widgets.VBox([*(e.widget for e in self._editors), self._steps.widget],
+                            layout=widgets.Layout(min_width="340px", max_width="400px"))
+        right = widgets.VBox([self._tabs, self._measures],
+                             layout=widgets.Layout(flex="1 1 auto", overflow="auto"))
+        super().__init__([
+            widgets.HTML(_STYLE), self._pickers.widget, self._counting.widget, self._message,
+            widgets.HBox([left, right]),
+        ])
+        self.add_class("rankfold-explorer")
+        self._show(self._rendered)
+
+    # ------------------------------------------------------------------ state changes
+    def _notify(self, text: str, error: bool = False) -> None:
+        kind = "error" if error else "info"
+        self._message.value = (
+            f'<div class="rankfold-message-{kind}">{formatting.text(text)}</div>' if text else ""
+        )
+
+    def _propose(self, change: Callable[[ExplorerState], ExplorerState],
+                 raise_errors: bool = False) -> None:
+        """Apply ``change`` to the state if the result can be rendered; else keep the old one."""
+        if self._syncing:
+            return
+        previous = self._rendered
+        try:
+            state = change(previous.state)
+            if state == previous.state:
+                return
+            if not raise_errors and self._cache.needs_count(state):  # a slow engine: don't wait
+                self._counting.start(state, self._cache.collected, self._cache.data, self._counted)
+                return
+            rendered = render(state, self._cache)
+            self._show(rendered)
+        except Exception as err:  # noqa: BLE001 - shown in the widget, never as a traceback
+            expected = isinstance(err, ValueError)
+            text = str(err) if expected else (
+                f"Unexpected problem ({type(err).__name__}: {err}); nothing was changed.")
+            self._show(previous)
+            self._notify(text, error=True)
+            if raise_errors:
+                raise
+            return
+        self._notify("")
+
+    def _counted(self, state: ExplorerState, error: Exception | None) -> None:
+        """A background count has finished: show its state, or say why it failed."""
+        def outcome(_: ExplorerState) -> ExplorerState:
+            if error is not None:
+                raise error
+            return state
+
+        self._propose(outcome)
+
+    def _show(self, rendered: Rendered) -> None:
+        self._rendered = rendered
+        self._syncing = True
+        try:
+            self._pickers.show(rendered)
+            for editor in self._editors:
+                editor.show(rendered)
+            self._steps.show(rendered)
+            self._measures.value = measures_html(
+                rendered.table, rendered.measures, rendered.tests,
+                rendered.diagnostics.warnings, rendered.left_out,
+            )
+            self._stale = set(range(len(self._sections)))
+            self._show_sections()
+        finally:
+            self._syncing = False
+
+    def _show_sections(self) -> None:
+        """Draw the visible section; hidden ones are drawn when their tab is opened."""
+        index = self._tabs.selected_index or 0
+        if index in self._stale:
+            self._stale.discard(index)
+            was_syncing, self._syncing = self._syncing, True
+            try:
+                self._sections[index].show(self._rendered)
+            finally:
+                self._syncing = was_syncing
+
+    # ------------------------------------------------------------------ scripting API
+    @property
+    def state(self) -> ExplorerState:
+        """The current state (variables, edits, view choices)."""
+        return self._rendered.state
+
+    @property
+    def table(self) -> OrdinalTable:
+        """The current table, after every step."""
+        return self._rendered.table
+
+    @property
+    def measures(self) -> pd.DataFrame:
+        """The current table's measures (:meth:`OrdinalTable.measures`)."""
+        return self._rendered.measures
+
+    @property
+    def steps(self) -> tuple:
+        """The coding steps applied since counting (core step objects, oldest first)."""
+        return self.table.steps[self.table.initial_steps:]
+
+    def _edit(self, kind: str, axis: str, labels: tuple) -> None:
+        variable = self.state.row if _axis(axis) == "rows" else self.state.col
+        self._propose(lambda s: s.with_edit(Edit(kind, variable, labels)), raise_errors=True)
+
+    def merge(self, axis: str, groups: Sequence[Sequence[Hashable]]) -> None:
+        """Merge groups of neighbouring categories, as :meth:`OrdinalTable.merge`.
+
+        Parameters
+        ----------
+        axis : {'rows', 'cols'}
+        groups : list of lists of labels
+            E.g. ``[["10–20 km", "over 20 km"]]``.
+
+        Raises
+        ------
+        ValueError
+            If the merge is impossible (the message is also shown in the widget and the
+            previous state kept).
+        """
+        if isinstance(groups, (str, bytes)):
+            groups = [groups]
+        self._edit("merge", axis, tuple(
+            g if isinstance(g, (str, bytes)) else tuple(g) for g in groups))
+
+    def exclude(self, axis: str, labels: Sequence[Hashable]) -> None:
+        """Leave out the units in some categories, as :meth:`OrdinalTable.exclude`.
+
+        Parameters
+        ----------
+        axis : {'rows', 'cols'}
+        labels : label or list of labels
+        """
+        self._edit("exclude", axis,
+                   (labels,) if isinstance(labels, (str, bytes)) else tuple(labels))
+
+    def reorder(self, axis: str, labels: Sequence[Hashable]) -> None:
+        """Put one variable's categories in a new order, as :meth:`OrdinalTable.reorder`.
+
+        Parameters
+        ----------
+        axis : {'rows', 'cols'}
+        labels : list of labels
+            Every current category once.
+        """
+        self._edit("reorder", axis, tuple(labels))
+
+    def undo(self) -> None:
+        """Take back the last coding step."""
+        self._propose(lambda s: s.undone(), raise_errors=True)
+
+    def reset(self) -> None:
+        """Take back every coding step."""
+        self._propose(lambda s: s.reset(), raise_errors=True)
+
+    def swap(self) -> None:
+        """Exchange the row and column variables (steps follow their variables)."""
+        self._propose(lambda s: s.swapped(), raise_errors=True)
+
+    def set_variables(self, row: str | None = None, col: str | None = None) -> None:
+        """Choose the row and/or column variable; steps on variables no longer shown are
+        dropped."""
+        self._propose(lambda s: s.with_variables(row or s.row, col or s.col), raise_errors=True)
+
+    def set_view(self, **choices: Any) -> None:
+        """Change view choices: ``colour_by`` (a key of
+        :data:`~rankfold.widgets.state.COLOUR_CHOICES`) or ``chosen_cell`` (a (row label,
+        column label) pair for the pair view, or None)."""
+        self._propose(lambda s: s.with_view(**choices), raise_errors=True)
+
+    def to_code(self, data_name: str = "df") -> str:
+        """Python that rebuilds the current table and measures from the raw frame.
+
+        Parameters
+        ----------
+        data_name : str
+            Name of the frame in the reader's notebook.
+
+        Returns
+        -------
+        str
+            Runs as printed given ``data_name``; it defines ``table``, ``measures`` and
+            ``coded`` (the two columns with the current coding).
+        """
+        return code_snippet(self.table, data_name, records=has_records(self._cache.data))
+
+    def wait(self, timeout: float | None = None) -> None:
+        """Wait until a count started from the pickers (for a Dask, polars or DuckDB source)
+        has finished and is shown; scripting calls such as :meth:`set_variables` count at
+        once and need no wait."""
+        self._counting.wait(timeout)
+
+    def coded_columns(self) -> pd.DataFrame:
+        """The row and column variables with the current coding, as new ordered Categoricals.
+
+        Returns
+        -------
+        pandas.DataFrame
+            Same index as the frame; excluded categories are missing. Join it to your data
+            (``df.join(coded, rsuffix="_coded")``) to carry the coding into other analyses.
+        """
+        return self._rendered.coded_columns()
+
+    def chart(self, name: str):
+        """The current Altair chart ``'heatmap'``, ``'pairs'`` (None until a cell is chosen) or
+        ``'comparison'``: an ordinary Altair object to restyle or save."""
+        return self._rendered.chart(name)
+
+    def save_chart(self, name: str, path: str) -> str:
+        """Save one of the charts (``'heatmap'``, ``'pairs'``, ``'comparison'``) to ``path``;
+        the format follows the suffix (.html, .json, .png, .svg). Returns the path written."""
+        chart = self._rendered.chart(name)
+        if chart is None:
+            raise ValueError("There is no pair view yet: choose a cell first (set_view).")
+        return str(save_chart(chart, path))
+
+
+def explore(
+    df: pd.DataFrame | OrdinalTable | Any,
+    row: str | None = None,
+    col: str | None = None,
+    *,
+    layer: str | None = None,
+    weight: str | None = None,
+    weight_kind: str = "frequency",
+    order: Mapping[str, Sequence[Hashable]] | None = None,
+) -> Explorer:
+    """Open the explorer on two ordered variables of a DataFrame, a larger source, or a table.
+
+    Parameters
+    ----------
+    df : pandas.DataFrame, source, or OrdinalTable
+        The records; never modified (every change works on a counted copy of the table).
+        Any source :func:`rankfold.table` counts works too (a Dask or polars frame, a DuckDB
+        relation, a path or glob of Parquet or CSV files): the pickers list its columns from
+        their types, and a pair chosen in the pickers is counted by its engine in the
+        background while a progress bar shows. A ready :class:`~rankfold.OrdinalTable` is
+        explored as it is: its variables, layer and weight are fixed, and everything else
+        works from its counts.
+    row, col : str, optional
+        The row and column variables; default: the first two columns that can be ordered.
+    layer, weight, weight_kind, order
+        As in :func:`rankfold.table`.
+
+    Returns
+    -------
+    Explorer
+        An ipywidgets container that displays itself in a notebook cell. Its methods
+        (:meth:`~Explorer.merge`, :meth:`~Explorer.exclude`, :meth:`~Explorer.undo`, ...) drive
+        the same state as the controls; :attr:`~Explorer.table` and
+        :attr:`~Explorer.measures` give the current results and :meth:`~Explorer.to_code` the
+        code that reproduces them.
+
+    Notes
+    -----
+    The measures are those of :meth:`rankfold.OrdinalTable.measures` (Goodman & Kruskal 1954;
+    Agresti 2010, ch. 7). Charts render offline through :class:`altair.JupyterChart`.
+
+    Examples
+    --------
+    >>> import rankfold
+    >>> df = rankfold.demo.transit_survey()
+    >>> ex = rankfold.explore(df, "trip_length", "service_rating")
+    >>> ex.exclude("cols", ["no answer"])
+    >>> ex.table.shape
+    (5, 5)
+    """
+    return Explorer(df, row, col, layer=layer, weight=weight, weight_kind=weight_kind, order=order)

@@ -1,0 +1,215 @@
+"""The heatmap of the current table: cells coloured by a chosen quantity, values printed."""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable, Sequence
+
+import altair as alt
+import ipywidgets as widgets
+import numpy as np
+import pandas as pd
+
+from . import formatting
+from .chart_pane import CLICK, ChartPane, building, inline_data
+from .state import COLOUR_CHOICES
+
+__all__ = ["heatmap_chart", "HeatmapSection", "grid_axes", "TOTAL"]
+
+TOTAL = "total"
+CELL_WIDTH = 78
+CELL_HEIGHT = 34
+_DIVERGING = {"adjusted_residual", "pair_contribution"}
+
+
+def _cell_text(value: float, colour_by: str) -> str:
+    if value is None or math.isnan(value):
+        return formatting.DASH
+    if colour_by in ("row_percent", "col_percent"):
+        return f"{value:.1f}%"
+    if colour_by == "adjusted_residual":
+        return f"{value:+.1f}"
+    if colour_by == "pair_contribution":
+        return formatting.signed_amount(value)
+    return formatting.amount(value)
+
+
+def _margin_label(labels: Sequence[str]) -> str:
+    """The label of the totals row/column, distinct from every category label."""
+    label = TOTAL
+    while label in labels:
+        label = f"({label})"
+    return label
+
+
+def grid_axes(
+    row_labels: Sequence, col_labels: Sequence, row_name: str, col_name: str, margins: bool
+) -> tuple[alt.X, alt.Y]:
+    """Nominal x and y channels that keep the categories in their order.
+
+    Parameters
+    ----------
+    row_labels, col_labels : sequence
+        Category labels in order (shown as text).
+    row_name, col_name : str
+        Axis titles.
+    margins : bool
+        Whether a totals row and column follow the categories.
+
+    Returns
+    -------
+    (alt.X, alt.Y)
+        Channels on the fields ``col`` and ``row``.
+    """
+    rows = [str(x) for x in row_labels]
+    cols = [str(x) for x in col_labels]
+    if margins:
+        rows.append(_margin_label(rows))
+        cols.append(_margin_label(cols))
+    long_labels = max(map(len, cols), default=0) > 10
+    with building():
+        x = alt.X(
+            field="col", type="nominal", sort=cols, title=col_name,
+            axis=alt.Axis(orient="top", labelAngle=-30 if long_labels else 0, labelLimit=140),
+        )
+        y = alt.Y(field="row", type="nominal", sort=rows, title=row_name,
+                  axis=alt.Axis(labelLimit=160))
+    return x, y
+
+
+def heatmap_chart(
+    figures: pd.DataFrame,
+    colour_by: str,
+    row_name: str,
+    col_name: str,
+    chosen: tuple[int, int] | None = None,
+    scale_max: float | None = None,
+) -> alt.LayerChart:
+    """Heatmap of a table with the value printed in each cell and marginal totals.
+
+    Parameters
+    ----------
+    figures : pandas.DataFrame
+        Output of :func:`rankfold.cell_figures` for the table.
+    colour_by : str
+        A key of :data:`rankfold.widgets.state.COLOUR_CHOICES`. Adjusted residuals and pair
+        contributions use a diverging scale centred at 0.
+    row_name, col_name : str
+        Variable names (axis titles).
+    chosen : (int, int), optional
+        Positions of a cell to outline (the one the pair view explains).
+    scale_max : float, optional
+        Largest absolute value the colour scale must reach; give the same value to several
+        charts (one per layer) so that they share one colour scale.
+
+    Returns
+    -------
+    altair.LayerChart
+        Clicking a cell sets the point selection ``"cell"`` to its positions.
+    """
+    if colour_by not in COLOUR_CHOICES:
+        raise ValueError(f"colour_by must be one of {list(COLOUR_CHOICES)}; got {colour_by!r}.")
+    row_labels = [str(x) for x in dict.fromkeys(figures["row"])]
+    col_labels = [str(x) for x in dict.fromkeys(figures["col"])]
+    x, y = grid_axes(row_labels, col_labels, row_name, col_name, margins=True)
+    totals_col = _margin_label(col_labels)
+    totals_row = _margin_label(row_labels)
+    values = figures[colour_by].to_numpy(dtype=float)
+    finite = ~np.isnan(values)
+    largest = float(np.abs(values[finite]).max()) if finite.any() else 0.0
+    if scale_max is not None:
+        largest = max(largest, float(scale_max))
+    if colour_by == "adjusted_residual":
+        largest = max(largest, 2.0)  # keep +/-2 (the usual reference) inside the scale
+    largest = largest or 1.0
+    cells = [
+        {"row": r, "col": c, "row_position": int(i), "col_position": int(j),
+         "value": float(v) if ok else None, "label": _cell_text(v, colour_by),
+         "ink": "light" if ok and abs(v) / largest > 0.6 else "dark"}
+        for r, c, i, j, v, ok in zip(
+            map(str, figures["row"]), map(str, figures["col"]), figures["row_position"],
+            figures["col_position"], values, finite, strict=True)
+    ]
+    first_col = figures.drop_duplicates("row")
+    first_row = figures.drop_duplicates("col")
+    margins = [(r, totals_col, t) for r, t in zip(row_labels, first_col["row_total"], strict=True)]
+    margins += [(totals_row, c, t) for c, t in zip(col_labels, first_row["col_total"], strict=True)]
+    margins.append((totals_row, totals_col, float(first_col["row_total"].sum())))
+    cells += [{"row": r, "col": c, "label": formatting.amount(t), "ink": "total"}
+              for r, c, t in margins]
+    with building():
+        if colour_by in _DIVERGING:
+            scale = alt.Scale(scheme="blueorange", domain=[-largest, largest], domainMid=0)
+        else:
+            scale = alt.Scale(scheme="blues", domain=[0, largest])
+        click = alt.selection_point(name=CLICK, fields=["row_position", "col_position"],
+                                    on="click")
+        rect = alt.Chart().mark_rect(stroke="#ffffff", strokeWidth=1, cursor="pointer").encode(
+            x=x, y=y,
+            color=alt.Color(field="value", type="quantitative", scale=scale,
+                            title=COLOUR_CHOICES[colour_by],
+                            legend=alt.Legend(orient="bottom", gradientLength=200)),
+        ).transform_filter("datum.ink != 'total'").add_params(click)
+        ink = alt.Color(field="ink", type="nominal", legend=None, scale=alt.Scale(
+            domain=["dark", "light", "total"], range=["#1a1a1a", "#ffffff", "#595959"]))
+        text = alt.Chart().mark_text(fontSize=11).encode(
+            x=x, y=y, text=alt.Text(field="label", type="nominal"), color=ink
+        )
+        layers = [rect, text]
+        if chosen is not None:
+            outline = alt.Chart().mark_rect(fill=None, stroke="#111111", strokeWidth=3).encode(
+                x=x, y=y
+            ).transform_filter(
+                f"datum.row_position == {int(chosen[0])} && datum.col_position == {int(chosen[1])}"
+            )
+            layers.append(outline)
+        return alt.LayerChart(
+            data=inline_data(cells),
+            layer=layers,
+            width=alt.Step(CELL_WIDTH),
+            height=alt.Step(CELL_HEIGHT),
+            title=alt.Title(f"{row_name} by {col_name}: {COLOUR_CHOICES[colour_by]}",
+                            subtitle="totals in grey; click a cell to see its pairs"),
+            background="#ffffff",
+        )
+
+
+class HeatmapSection:
+    """The heatmap with its colour choice; a click on a cell chooses it for the pair view.
+
+    Parameters
+    ----------
+    propose : callable
+        Takes a function from state to new state (the explorer's only entry point).
+    notify : callable
+        Shows a message in the explorer (unused here; part of every section's signature).
+    """
+
+    title = "Heatmap"
+
+    def __init__(self, propose: Callable, notify: Callable) -> None:
+        self._propose = propose
+        self._colour = widgets.ToggleButtons(
+            options=[(name, key) for key, name in COLOUR_CHOICES.items()],
+            description="colour by",
+            style={"button_width": "auto"},
+        )
+        self._colour.add_class("rankfold-colour-by")
+        self._colour.observe(self._colour_changed, names="value")
+        self._pane = ChartPane("rankfold-heatmap", on_click=self._clicked)
+        self._rendered = None
+        self.widget = widgets.VBox([self._colour, self._pane.widget])
+
+    def show(self, rendered) -> None:
+        """Display the rendered state (see :class:`rankfold.widgets.render.Rendered`)."""
+        self._rendered = rendered
+        self._colour.value = rendered.state.colour_by
+        self._pane.show(rendered.chart("heatmap"))
+
+    def _colour_changed(self, change: dict) -> None:
+        self._propose(lambda state: state.with_view(colour_by=change["new"]))
+
+    def _clicked(self, point: dict) -> None:
+        cell = self._rendered.cell_labels(point)
+        self._propose(lambda state: state.with_view(chosen_cell=cell))
+

@@ -1,0 +1,179 @@
+"""The layers view: one heatmap per layer on one shared colour scale, and the measures within
+layers (each layer's gamma beside partial gamma, with the homogeneity and CMH tests).
+
+All numbers come from the core (:meth:`rankfold.OrdinalTable.layer_table`,
+:meth:`~rankfold.OrdinalTable.layer_measures`, :meth:`~rankfold.OrdinalTable.partial_measures`,
+:meth:`~rankfold.OrdinalTable.tests`); the heatmaps are :func:`heatmap_chart` drawn once per
+layer.
+"""
+
+from __future__ import annotations
+
+import math
+import warnings
+from collections.abc import Callable
+
+import altair as alt
+import ipywidgets as widgets
+import pandas as pd
+import rankfold
+from rankfold import OrdinalTable
+
+from . import formatting
+from .chart_pane import ChartPane
+from .heatmap import heatmap_chart
+
+__all__ = ["layer_heatmaps", "layer_measures_html", "LayerSection", "LAYER_CAUTIONS"]
+
+LAYER_CAUTIONS = (
+    "Holding one variable fixed removes its influence, not that of anything else: the "
+    "association within layers is still not evidence of a cause.",
+    "Pick the layer variable from how the data arose, before looking at these numbers; "
+    "trying layers until one gives the hoped-for answer inflates false findings.",
+    "Small layers give wide intervals; check each layer's n.",
+)
+_NO_LAYER = (
+    '<p class="rankfold-hint">Choose a layer variable above to see the table and the '
+    "association within each of its categories.</p>"
+)
+
+
+def layer_heatmaps(table: OrdinalTable, colour_by: str, columns: int = 2) -> alt.ConcatChart:
+    """One heatmap per layer, all on the same colour scale.
+
+    Parameters
+    ----------
+    table : OrdinalTable
+        A layered table.
+    colour_by : str
+        A key of :data:`rankfold.widgets.state.COLOUR_CHOICES`.
+    columns : int
+        Heatmaps per row of the grid.
+
+    Returns
+    -------
+    altair.ConcatChart
+        Titled by layer, with one shared colour scale (the largest absolute value over all
+        layers), so that equal colours mean equal values in every layer. Clicking a cell sets
+        the point selection ``"cell"`` to its positions, as in :func:`heatmap_chart`.
+    """
+    parts = [(label, rankfold.cell_figures(table.layer_table(label)))
+             for label in table.layer_labels]
+    values = pd.concat([figures[colour_by] for _, figures in parts]).astype(float).abs()
+    shared = float(values.max()) if values.notna().any() else 0.0
+    panels = []
+    for label, figures in parts:
+        panel = heatmap_chart(figures, colour_by, table.row_name, table.col_name,
+                              scale_max=shared)
+        panel.background = alt.Undefined  # set once on the whole grid (concat requires it)
+        panel.title = alt.Title(f"{table.layer_name} = {label}",
+                                subtitle=f"n = {formatting.amount(figures['count'].sum())}")
+        panels.append(panel)
+    with warnings.catch_warnings():
+        # Every panel declares the same click selection; Altair merges them into one, which
+        # is what we want (a click in any panel picks that cell).
+        warnings.filterwarnings("ignore", message="Automatically deduplicated selection")
+        grid = alt.concat(*panels, columns=columns, background="#ffffff")
+    return grid.resolve_scale(color="shared")
+
+
+def _row(key: str, label: str, n: float | None, record: pd.Series, kind: str) -> str:
+    count = "" if n is None else formatting.amount(n)
+    return (
+        f'<tr data-{kind}="{formatting.text(key)}"><th scope="row">{formatting.text(label)}</th>'
+        f"<td>{count}</td>"
+        f'<td class="rankfold-estimate">{formatting.estimate(record.estimate)}</td>'
+        f"<td>{formatting.interval(record.ci_low, record.ci_high)}</td>"
+        f"<td>{formatting.p_value(record.p_value)}</td>"
+        f'<td class="rankfold-note">{formatting.text(record.note)}</td></tr>'
+    )
+
+
+def _test_line(key: str, label: str, record: pd.Series) -> str:
+    df = "" if math.isnan(record.df) else f", df = {record.df:.0f}"
+    return (
+        f'<p class="rankfold-layer-test" data-test="{key}">{formatting.text(label)}: '
+        f"statistic = {formatting.estimate(record.statistic)}{df}, "
+        f"p = {formatting.p_value(record.p_value)}"
+        f' <span class="rankfold-hint">{formatting.text(record.note)}</span></p>'
+    )
+
+
+def layer_measures_html(table: OrdinalTable, measures: pd.DataFrame, tests: pd.DataFrame,
+                        confidence: float = 0.95) -> str:
+    """Gamma in each layer beside partial gamma and the pooled gamma, with the layer tests.
+
+    Parameters
+    ----------
+    table : OrdinalTable
+        A layered table.
+    measures, tests : pandas.DataFrame
+        ``table.measures()`` (pooled; its gamma is shown for contrast) and ``table.tests()``
+        (with the ``gamma_homogeneity`` and ``cmh_correlation`` rows of a layered table).
+    confidence : float
+        Level of the intervals.
+
+    Returns
+    -------
+    str
+        HTML: a ``table.rankfold-layer-measures`` whose rows carry ``data-layer`` (one per
+        layer) or ``data-measure`` (``partial_gamma``, ``gamma`` for the pooled value), the
+        estimate in ``td.rankfold-estimate`` to 4 decimals; ``p.rankfold-layer-test`` lines
+        with ``data-test``; and ``ul.rankfold-cautions``.
+    """
+    per_layer = table.layer_measures(confidence).xs("gamma", level=1)
+    partial = table.partial_measures(confidence).loc["partial_gamma"]
+    rows = "".join(
+        _row(str(label), str(label), float(cells.sum()), per_layer.loc[label], "layer")
+        for label, cells in zip(table.layer_labels, table.cells, strict=True)
+    )
+    rows += _row("partial_gamma", "partial gamma (within layers)", table.n, partial, "measure")
+    rows += _row("gamma", "pooled gamma (layers ignored)", table.n, measures.loc["gamma"],
+                 "measure")
+    lines = (
+        _test_line("gamma_homogeneity", "Same gamma in every layer? (homogeneity check)",
+                   tests.loc["gamma_homogeneity"])
+        + _test_line("cmh_correlation", "Association within layers (CMH correlation test)",
+                     tests.loc["cmh_correlation"])
+    )
+    cautions = "".join(f"<li>{formatting.text(c)}</li>" for c in LAYER_CAUTIONS)
+    return (
+        '<div class="rankfold-layer-panel"><table class="rankfold-layer-measures"><thead><tr>'
+        f"<th>gamma by {formatting.text(table.layer_name)}</th><th>n</th><th>estimate</th>"
+        f"<th>{confidence:.0%} interval</th><th>p</th><th>note</th></tr></thead><tbody>"
+        + rows + "</tbody></table>" + lines
+        + f'<ul class="rankfold-cautions">{cautions}</ul></div>'
+    )
+
+
+class LayerSection:
+    """The layers tab: measures within layers above one heatmap per layer.
+
+    Built like every entry of :data:`rankfold.widgets.explorer.SECTIONS`, from ``propose``
+    and ``notify``; a click on a cell of any layer chooses that cell for the pair view.
+    """
+
+    title = "Layers"
+
+    def __init__(self, propose: Callable, notify: Callable) -> None:
+        self._propose = propose
+        self._rendered = None
+        self._numbers = widgets.HTML(_NO_LAYER)
+        self._numbers.add_class("rankfold-layer-measures-box")
+        self._pane = ChartPane("rankfold-layer-heatmaps", on_click=self._clicked)
+        self.widget = widgets.VBox([self._numbers, self._pane.widget])
+
+    def show(self, rendered) -> None:
+        """Display the rendered state (see :class:`rankfold.widgets.render.Rendered`)."""
+        self._rendered = rendered
+        table = rendered.table
+        if table.layer_name is None:
+            self._numbers.value = _NO_LAYER
+            self._pane.show(None)
+            return
+        self._numbers.value = layer_measures_html(table, rendered.measures, rendered.tests)
+        self._pane.show(layer_heatmaps(table, rendered.state.colour_by))
+
+    def _clicked(self, point: dict) -> None:
+        cell = self._rendered.cell_labels(point)
+        self._propose(lambda state: state.with_view(chosen_cell=cell))

@@ -1,0 +1,105 @@
+"""The measures panel: an HTML table of the measures, the chi-square test, warnings, cautions."""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+
+import pandas as pd
+from rankfold import OrdinalTable, measure_label
+
+from . import formatting
+
+__all__ = ["measures_html", "CAUTIONS"]
+
+CAUTIONS = (
+    "An association, however strong, is not evidence that one variable causes the other.",
+    "Choosing merges or exclusions after looking at these numbers inflates false findings: "
+    "fix the coding by a rule set in advance (for instance, merge sparse categories), or "
+    "report every coding you tried.",
+)
+_NOMINAL = ("cramers_v",)
+
+
+def _measure_row(key: str, record: pd.Series, label: str) -> str:
+    return (
+        f'<tr data-measure="{key}"><th scope="row">{formatting.text(label)}</th>'
+        f'<td class="rankfold-estimate" data-measure="{key}">{formatting.estimate(record.estimate)}'
+        f"</td><td>{formatting.interval(record.ci_low, record.ci_high)}</td>"
+        f"<td>{formatting.p_value(record.p_value)}</td>"
+        f'<td class="rankfold-note">{formatting.text(record.note)}</td></tr>'
+    )
+
+
+def measures_html(
+    table: OrdinalTable,
+    measures: pd.DataFrame,
+    tests: pd.DataFrame,
+    warnings: Sequence[str],
+    left_out: float,
+    confidence: float = 0.95,
+) -> str:
+    """The measures of the current table as an HTML panel.
+
+    Parameters
+    ----------
+    table : OrdinalTable
+        The current table (for variable names and unit counts).
+    measures : pandas.DataFrame
+        ``table.measures()``.
+    tests : pandas.DataFrame
+        ``table.tests()``; the Pearson chi-square row is shown for contrast.
+    warnings : sequence of str
+        Sparse-cell warnings (``table.diagnostics().warnings``).
+    left_out : float
+        Units left out by the explorer's exclusions.
+    confidence : float
+        Level of the intervals in ``measures``, for the column heading.
+
+    Returns
+    -------
+    str
+        HTML with a table of class ``rankfold-measures``. Each measure row has
+        ``data-measure`` set to its key; the estimate cell has class ``rankfold-estimate``, the
+        same ``data-measure`` and the estimate to 4 decimals (a dash when undefined, with the
+        reason in the note column).
+    """
+    ordinal = [k for k in measures.index if k not in _NOMINAL]
+    nominal = [k for k in measures.index if k in _NOMINAL]
+
+    def rows(keys: list[str]) -> str:
+        return "".join(
+            _measure_row(k, measures.loc[k], measure_label(k, table.row_name, table.col_name))
+            for k in keys
+        )
+
+    chi = tests.loc["pearson_chi_square"]
+    chi_row = (
+        '<tr data-measure="pearson_chi_square"><th scope="row">Pearson chi-square</th>'
+        f'<td class="rankfold-estimate" data-measure="pearson_chi_square">'
+        f"{formatting.estimate(chi.statistic)}</td><td>df = {formatting.amount(chi.df)}</td>"
+        f"<td>{formatting.p_value(chi.p_value)}</td>"
+        f'<td class="rankfold-note">{formatting.text(chi.note)}</td></tr>'
+    )
+    counted = [f"n = {formatting.amount(table.n)}"]
+    if left_out:
+        counted.append(f"{formatting.amount(left_out)} left out by exclusions")
+    if table.n_missing:
+        counted.append(f"{formatting.amount(table.n_missing)} records with a missing value dropped")
+    if table.weight:
+        counted.append(f"weighted by {formatting.text(table.weight)} ({table.weight_kind})")
+    if table.layer_name:
+        counted.append(f"pooled over the {len(table.layer_labels)} layers of "
+                       f"{formatting.text(table.layer_name)} (see the Layers tab)")
+    warning_html = "".join(f'<div class="rankfold-warning">{formatting.text(w)}</div>'
+                           for w in warnings)
+    cautions = "".join(f"<li>{formatting.text(c)}</li>" for c in CAUTIONS)
+    return (
+        f'<div class="rankfold-measures-panel"><p class="rankfold-units">{"; ".join(counted)}</p>'
+        '<table class="rankfold-measures"><thead><tr><th>measure</th><th>estimate</th>'
+        f"<th>{confidence:.0%} interval</th><th>p</th><th>note</th></tr></thead><tbody>"
+        + rows(ordinal)
+        + '<tr class="rankfold-group"><td colspan="5">for contrast, ignoring the order</td></tr>'
+        + rows(nominal) + chi_row
+        + "</tbody></table>" + warning_html
+        + f'<ul class="rankfold-cautions">{cautions}</ul></div>'
+    )

@@ -1,0 +1,152 @@
+"""Pickers for the row, column, layer and weight variables, and the swap button."""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Hashable, Mapping, Sequence
+
+import ipywidgets as widgets
+import pandas as pd
+
+from rankfold.counting import MAX_NUMERIC_LEVELS
+
+__all__ = ["orderable_columns", "layer_columns", "weight_columns", "VariablePickers"]
+
+
+def orderable_columns(
+    data: pd.DataFrame, order: Mapping[str, Sequence[Hashable]] | None = None
+) -> list[str]:
+    """Columns that :func:`rankfold.table` can put in order, in the frame's column order.
+
+    Parameters
+    ----------
+    data : pandas.DataFrame
+        The user's frame (only read).
+    order : mapping, optional
+        Orders given for text columns (``order=`` of :func:`rankfold.table`).
+
+    Returns
+    -------
+    list of str
+        Ordered Categoricals, numeric and boolean columns with at most
+        :data:`rankfold.counting.MAX_NUMERIC_LEVELS` distinct values, and any column named in
+        ``order``: the same rules :func:`rankfold.table` applies.
+    """
+    given = set(order or {})
+    found = []
+    for name in data.columns:
+        column = data[name]
+        if name in given:
+            found.append(name)
+        elif isinstance(column.dtype, pd.CategoricalDtype):
+            if column.cat.ordered:
+                found.append(name)
+        elif (pd.api.types.is_numeric_dtype(column.dtype)
+              or pd.api.types.is_bool_dtype(column.dtype)):
+            if column.nunique(dropna=True) <= MAX_NUMERIC_LEVELS:
+                found.append(name)
+    return found
+
+
+def layer_columns(data: pd.DataFrame) -> list[str]:
+    """Columns that can serve as a layer: 2 to 30 distinct values, of any type.
+
+    Parameters
+    ----------
+    data : pandas.DataFrame
+        The user's frame (only read).
+
+    Returns
+    -------
+    list of str
+        In the frame's column order. A layer needs no order (text is sorted), but more than
+        :data:`rankfold.counting.MAX_NUMERIC_LEVELS` layers would give tables too small to read.
+    """
+    return [name for name in data.columns
+            if 2 <= data[name].nunique(dropna=True) <= MAX_NUMERIC_LEVELS]
+
+
+def weight_columns(data: pd.DataFrame) -> list[str]:
+    """Numeric (not boolean) columns, the possible weights; :func:`rankfold.table` checks the
+    values (finite, not negative) when one is chosen."""
+    return [name for name in data.columns
+            if pd.api.types.is_numeric_dtype(data[name].dtype)
+            and not pd.api.types.is_bool_dtype(data[name].dtype)]
+
+
+class VariablePickers:
+    """Dropdowns for the row, column, layer and weight variables, and a swap button.
+
+    Choosing in one picker the variable the other one shows swaps them. The layer and weight
+    pickers offer "none" first; the weight kind says whether a weight counts identical units
+    (frequency) or is a survey weight (sampling).
+
+    Parameters
+    ----------
+    columns : list of str
+        The columns offered for rows and columns (see :func:`orderable_columns`).
+    propose : callable
+        Takes a function from state to new state.
+    layers, weights : sequence of str
+        The columns offered as layer and as weight (see :func:`layer_columns` and
+        :func:`weight_columns`).
+    """
+
+    def __init__(self, columns: list[str], propose: Callable, layers: Sequence[str] = (),
+                 weights: Sequence[str] = ()) -> None:
+        self._row = widgets.Dropdown(options=columns, description="rows")
+        self._col = widgets.Dropdown(options=columns, description="columns")
+        self._swap = widgets.Button(description="swap ⇄", tooltip="Exchange rows and columns",
+                                    layout=widgets.Layout(width="auto"))
+        for widget, css in ((self._row, "rankfold-row-picker"), (self._col, "rankfold-col-picker"),
+                            (self._swap, "rankfold-swap")):
+            widget.add_class(css)
+        self._row.observe(lambda c: propose(lambda s: _pick(s, row=c["new"])), names="value")
+        self._col.observe(lambda c: propose(lambda s: _pick(s, col=c["new"])), names="value")
+        self._swap.on_click(lambda _: propose(lambda s: s.swapped()))
+        self._layer = widgets.Dropdown(options=[("none", None), *((c, c) for c in layers)],
+                                       description="layer")
+        self._weight = widgets.Dropdown(options=[("none", None), *((c, c) for c in weights)],
+                                        description="weight")
+        self._kind = widgets.Dropdown(
+            options=[("frequency: a row is w units", "frequency"),
+                     ("sampling: survey weights", "sampling")],
+            description="weights are",
+            style={"description_width": "initial"},
+        )
+        for widget, css in ((self._layer, "rankfold-layer-picker"),
+                            (self._weight, "rankfold-weight-picker"),
+                            (self._kind, "rankfold-weight-kind")):
+            widget.add_class(css)
+        self._layer.observe(lambda c: propose(lambda s: s.with_roles(layer=c["new"])),
+                            names="value")
+        # no weight means no weight kind: back to the default, which needs no column
+        self._weight.observe(lambda c: propose(lambda s: s.with_roles(
+            weight=c["new"], weight_kind=s.weight_kind if c["new"] else "frequency")),
+            names="value")
+        self._kind.observe(lambda c: propose(lambda s: s.with_roles(weight_kind=c["new"])),
+                           names="value")
+        self.widget = widgets.HBox(
+            [self._row, self._col, self._swap, self._layer, self._weight, self._kind],
+            layout=widgets.Layout(flex_flow="row wrap"),
+        )
+        self.widget.add_class("rankfold-pickers")
+
+    def show(self, rendered) -> None:
+        """Show the state's variables."""
+        state = rendered.state
+        self._row.value = state.row
+        self._col.value = state.col
+        for picker, value in ((self._layer, state.layer), (self._weight, state.weight)):
+            if value not in [v for _, v in picker.options]:  # given to explore() directly
+                picker.options = [*picker.options, (value, value)]
+            picker.value = value
+        self._kind.value = state.weight_kind
+        self._kind.disabled = state.weight is None
+
+
+def _pick(state, row: str | None = None, col: str | None = None):
+    row = state.row if row is None else row
+    col = state.col if col is None else col
+    if row == col:  # picked the other axis's variable: exchange the two
+        return state.swapped()
+    return state.with_variables(row, col)

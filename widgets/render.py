@@ -1,0 +1,214 @@
+"""The render pass: from an :class:`ExplorerState` to every number and chart the explorer shows.
+
+The user's frame is counted once per variable pair (:class:`TableCache`); every edit or view
+change starts again from that cached table, so a change costs a few milliseconds whatever the
+number of records. Statistics all come from the core; this module only chains the calls.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Hashable
+from dataclasses import dataclass, field
+from typing import Any
+
+import altair as alt
+import pandas as pd
+import rankfold
+from rankfold import Diagnostics, OrdinalTable, PairRegions
+
+from .comparison import COMPARED, comparison_chart
+from .heatmap import heatmap_chart
+from .pair_view import pair_chart
+from .state import ExplorerState
+from .table_mode import fixed_table, has_records
+
+__all__ = ["TableCache", "Rendered", "render", "CHARTS"]
+
+#: Names of the charts a rendered state can draw (see :meth:`Rendered.chart`).
+CHARTS = ("heatmap", "pairs", "comparison")
+
+
+class TableCache:
+    """Counts a DataFrame once per choice of variables and keeps the result.
+
+    Parameters
+    ----------
+    data : pandas.DataFrame, a source of :func:`rankfold.table`, or OrdinalTable
+        The user's frame or source; it is only read. A ready table is shown as it is (see
+        :func:`~rankfold.widgets.table_mode.fixed_table`).
+    """
+
+    def __init__(self, data: pd.DataFrame | OrdinalTable | Any) -> None:
+        self.data = data
+        self._tables: dict[tuple, OrdinalTable] = {}
+        self._measures: dict[tuple, pd.DataFrame] = {}
+
+    def collected(self, state: ExplorerState) -> OrdinalTable:
+        """The table as collected (before any edit) for the state's variables."""
+        key = state.table_key
+        if key not in self._tables and isinstance(self.data, OrdinalTable):
+            self._tables[key] = fixed_table(self.data, state)
+        if key not in self._tables:
+            roles = (state.row, state.col, state.layer)
+            self._tables[key] = rankfold.table(
+                self.data, state.row, state.col, layer=state.layer, weight=state.weight,
+                weight_kind=state.weight_kind,
+                order={name: list(labels) for name, labels in state.order if name in roles},
+            )
+        return self._tables[key]
+
+    def needs_count(self, state: ExplorerState) -> bool:
+        """True if the state's variables must first be counted by another engine (slow)."""
+        return state.table_key not in self._tables and not (
+            has_records(self.data) or isinstance(self.data, OrdinalTable))
+
+    def collected_measures(self, state: ExplorerState) -> pd.DataFrame:
+        """Measures of :meth:`collected`, computed once."""
+        key = state.table_key
+        if key not in self._measures:
+            self._measures[key] = self.collected(state).measures()
+        return self._measures[key]
+
+
+@dataclass(frozen=True)
+class Rendered:
+    """Everything derived from one state; charts are drawn on first request.
+
+    Attributes
+    ----------
+    state : ExplorerState
+    collected, table : OrdinalTable
+        The table as collected and after the state's edits.
+    measures, tests : pandas.DataFrame
+        ``table.measures()`` and ``table.tests()``.
+    diagnostics : Diagnostics
+    figures : pandas.DataFrame
+        :func:`rankfold.cell_figures` of the table.
+    regions : PairRegions or None
+        :func:`rankfold.pair_regions` of the chosen cell, if one is chosen and still exists.
+    comparison : pandas.DataFrame
+        :func:`rankfold.compare_measures` of the collected and the current measures.
+    left_out : float
+        Units left out by the state's exclusions.
+    source : TableCache
+        Where the tables came from (holds the user's frame, for :meth:`coded_columns`).
+    """
+
+    state: ExplorerState
+    collected: OrdinalTable
+    table: OrdinalTable
+    measures: pd.DataFrame
+    tests: pd.DataFrame
+    diagnostics: Diagnostics
+    figures: pd.DataFrame
+    regions: PairRegions | None
+    comparison: pd.DataFrame
+    left_out: float
+    source: TableCache = field(repr=False, compare=False)
+    _charts: dict = field(default_factory=dict, repr=False, compare=False)
+
+    def chart(self, name: str) -> alt.TopLevelMixin | None:
+        """The named chart (one of :data:`CHARTS`), built on first request; None for the pair
+        chart while no cell is chosen."""
+        if name not in CHARTS:
+            raise ValueError(f"Unknown chart {name!r}; the explorer draws {list(CHARTS)}.")
+        if name not in self._charts:
+            t = self.table
+            if name == "heatmap":
+                chosen = None if self.regions is None else (self.regions.row, self.regions.col)
+                drawn = heatmap_chart(self.figures, self.state.colour_by, t.row_name, t.col_name,
+                                      chosen)
+            elif name == "pairs":
+                drawn = (None if self.regions is None
+                         else pair_chart(self.figures, self.regions, t.row_name, t.col_name))
+            else:
+                drawn = comparison_chart(self.comparison, t.row_name, t.col_name)
+            self._charts[name] = drawn
+        return self._charts[name]
+
+    def cell_labels(self, point: dict) -> tuple[Hashable, Hashable]:
+        """The (row, column) labels of a clicked chart datum holding cell positions."""
+        return (self.table.row_labels[int(point["row_position"])],
+                self.table.col_labels[int(point["col_position"])])
+
+    def coded_columns(self) -> pd.DataFrame:
+        """The row and column variables with the current coding, as new ordered Categoricals
+        (excluded categories become missing); the user's frame is not modified."""
+        if not has_records(self.source.data):
+            raise ValueError(
+                "The explorer holds counts, not records, so it cannot recode columns; apply "
+                "the steps to your records with rankfold.apply_steps(records, table.steps)."
+            )
+        columns = [self.table.row_name, self.table.col_name]
+        return rankfold.apply_steps(self.source.data[columns], self.table.steps)
+
+    def axis_totals(self, axis: str) -> list[tuple[Hashable, float]]:
+        """Each category of ``axis`` (``'rows'`` or ``'cols'``) with its number of units."""
+        label, total = ("row", "row_total") if axis == "rows" else ("col", "col_total")
+        first = self.figures.drop_duplicates(label)
+        return list(zip(first[label], first[total].astype(float), strict=True))
+
+
+def _check_usable(table: OrdinalTable) -> None:
+    for labels, name in ((table.row_labels, table.row_name), (table.col_labels, table.col_name)):
+        if len(labels) < 2:
+            raise ValueError(
+                f"That would leave {name!r} with a single category ({labels[0]}); an ordinal "
+                "measure needs at least two categories on each variable. Nothing was changed."
+            )
+    if not table.n > 0:
+        raise ValueError(
+            "That would leave no units at all: every remaining unit is in an excluded "
+            "category. Nothing was changed."
+        )
+
+
+def render(state: ExplorerState, cache: TableCache) -> Rendered:
+    """Derive the table, its measures and every figure for a state.
+
+    Parameters
+    ----------
+    state : ExplorerState
+    cache : TableCache
+        Holds the counted tables of the user's frame.
+
+    Returns
+    -------
+    Rendered
+
+    Raises
+    ------
+    ValueError
+        If the state asks for something impossible (an unknown label, a merge of
+        non-neighbours, a variable left with one category, no units left); the message says
+        what and how to fix it.
+    """
+    collected = cache.collected(state)
+    table = collected
+    for edit in state.edits:
+        table = edit.apply(table)
+    _check_usable(table)
+    measures = table.measures()
+    regions = None
+    if state.chosen_cell is not None:
+        row, col = state.chosen_cell
+        if row in table.row_labels and col in table.col_labels:
+            regions = rankfold.pair_regions(
+                table.counts.to_numpy(), table.row_labels.index(row), table.col_labels.index(col)
+            )
+    collected_measures = cache.collected_measures(state)
+    return Rendered(
+        state=state,
+        collected=collected,
+        table=table,
+        measures=measures,
+        tests=table.tests(),
+        diagnostics=table.diagnostics(),
+        figures=rankfold.cell_figures(table),
+        regions=regions,
+        comparison=rankfold.compare_measures(
+            collected_measures, measures, [k for k in COMPARED if k in measures.index]
+        ),
+        left_out=collected.n - table.n,
+        source=cache,
+    )
