@@ -119,8 +119,11 @@ def code_column(
         if len(set(order)) != len(order):
             raise ValueError(f"order for {name!r} lists a category twice: {order}.")
         observed = set(np.flatnonzero(np.bincount(codes[codes >= 0], minlength=len(uniques))))
-        absent = [u for k, u in enumerate(uniques) if k in observed and u not in set(order)
-                  and u not in set(excluded)]
+        absent = [
+            u
+            for k, u in enumerate(uniques)
+            if k in observed and u not in set(order) and u not in set(excluded)
+        ]
         if absent:
             raise ValueError(
                 f"order for {name!r} leaves out values found in the column: {absent}. "
@@ -146,8 +149,9 @@ def code_column(
         raise ValueError(order_needed(name, remaining))
     position = {label: k for k, label in enumerate(labels)}
     # code -1 (missing) picks the trailing -1; codes already in label order are kept as they are
-    lookup = np.array([position.get(u, -1) for u in uniques] + [-1],
-                      dtype=np.min_scalar_type(-len(labels) - 1))
+    lookup = np.array(
+        [position.get(u, -1) for u in uniques] + [-1], dtype=np.min_scalar_type(-len(labels) - 1)
+    )
     missing_mask = codes < 0
     n_missing = int(np.count_nonzero(missing_mask))
     in_order = np.array_equal(lookup[:-1], np.arange(len(uniques)))
@@ -191,8 +195,12 @@ def check_weights(weight: str, bad_nan: int, bad_inf: int, bad_neg: int) -> None
 def _weights(data: pd.DataFrame, weight: str) -> np.ndarray:
     values = pd.to_numeric(data[weight], errors="coerce").to_numpy(dtype=float)
     # -inf counts as infinite only, so the three counts add up to the rows at fault
-    check_weights(weight, int(np.isnan(values).sum()), int(np.isinf(values).sum()),
-                  int((np.isfinite(values) & (values < 0)).sum()))
+    check_weights(
+        weight,
+        int(np.isnan(values).sum()),
+        int(np.isinf(values).sum()),
+        int((np.isfinite(values) & (values < 0)).sum()),
+    )
     return values
 
 
@@ -206,8 +214,9 @@ def _bincount(cells_flat: np.ndarray, size: int, weights: np.ndarray | None = No
     out = np.zeros(size, dtype=np.int64 if weights is None else float)
     for start in range(0, len(cells_flat), 1 << 20):
         part = slice(start, start + (1 << 20))
-        out += np.bincount(cells_flat[part], None if weights is None else weights[part],
-                           minlength=size)
+        out += np.bincount(
+            cells_flat[part], None if weights is None else weights[part], minlength=size
+        )
     return out
 
 
@@ -284,7 +293,8 @@ def table(
     Examples
     --------
     >>> import pandas as pd, rankfold
-    >>> df = pd.DataFrame({"dose": [1, 1, 2, 2, 3], "relief": ["low", "mid", "mid", "high", "high"]})
+    >>> relief = ["low", "mid", "mid", "high", "high"]
+    >>> df = pd.DataFrame({"dose": [1, 1, 2, 2, 3], "relief": relief})
     >>> t = rankfold.table(df, "dose", "relief", order={"relief": ["low", "mid", "high"]})
     >>> t.counts.to_numpy().tolist()
     [[1, 1, 0], [0, 1, 1], [0, 0, 1]]
@@ -310,9 +320,20 @@ def table(
 
         data, tally = tally_source(data, row, col, layer=layer, weight=weight, order=order)
     coded = {
-        role: code_column(data[name], name, axis, order.get(name), exclude.get(name), dropna,
-                          nominal=(role == "layer"))
-        for role, name, axis in (("row", row, "rows"), ("col", col, "cols"), ("layer", layer, "layers"))
+        role: code_column(
+            data[name],
+            name,
+            axis,
+            order.get(name),
+            exclude.get(name),
+            dropna,
+            nominal=(role == "layer"),
+        )
+        for role, name, axis in (
+            ("row", row, "rows"),
+            ("col", col, "cols"),
+            ("layer", layer, "layers"),
+        )
         if name is not None
     }
     r, c = coded["row"], coded["col"]
@@ -360,8 +381,16 @@ def table(
     steps = r.steps + c.steps + (coded["layer"].steps if layer is not None else ())
     origin = Origin(
         "frame",
-        {"row": row, "col": col, "layer": layer, "weight": weight, "weight_kind": weight_kind,
-         "order": order, "exclude": exclude, "dropna": dropna}
+        {
+            "row": row,
+            "col": col,
+            "layer": layer,
+            "weight": weight,
+            "weight_kind": weight_kind,
+            "order": order,
+            "exclude": exclude,
+            "dropna": dropna,
+        }
         | ({"source": os.fspath(source)} if isinstance(source, (str, os.PathLike)) else {}),
     )
     return OrdinalTable(
@@ -427,13 +456,17 @@ def table_from_counts(
     try:
         array = np.asarray(counts, dtype=float)
     except (TypeError, ValueError) as err:
-        raise ValueError(f"counts must be a 2-D array of numbers; could not read it ({err}).") from err
+        raise ValueError(
+            f"counts must be a 2-D array of numbers; could not read it ({err})."
+        ) from err
     if array.ndim != 2:
         raise ValueError(f"counts must be 2-D (rows x columns); got shape {array.shape}.")
     if array.size == 0:
         raise ValueError(f"counts is empty (shape {array.shape}); a table needs at least one cell.")
     if not np.all(np.isfinite(array)):
-        raise ValueError("counts contains NaN or infinite values; every cell must be a finite count.")
+        raise ValueError(
+            "counts contains NaN or infinite values; every cell must be a finite count."
+        )
     if (array < 0).any():
         bad = np.argwhere(array < 0)[0].tolist()
         raise ValueError(f"counts must be non-negative; cell {bad} is {array[tuple(bad)]}.")
@@ -441,8 +474,12 @@ def table_from_counts(
         given = np.asarray(counts)  # integers keep every digit (a float holds 53 bits)
         array = (given if np.issubdtype(given.dtype, np.integer) else array).astype(np.int64)
     n_i, n_j = array.shape
-    rows = tuple(_python_scalar(x) for x in (row_labels if row_labels is not None else range(1, n_i + 1)))
-    cols = tuple(_python_scalar(x) for x in (col_labels if col_labels is not None else range(1, n_j + 1)))
+    rows = tuple(
+        _python_scalar(x) for x in (row_labels if row_labels is not None else range(1, n_i + 1))
+    )
+    cols = tuple(
+        _python_scalar(x) for x in (col_labels if col_labels is not None else range(1, n_j + 1))
+    )
     if len(rows) != n_i or len(cols) != n_j:
         raise ValueError(
             f"Label counts do not match the table: {n_i} x {n_j} counts, {len(rows)} row labels, "
@@ -462,7 +499,15 @@ def table_from_counts(
         row_labels=rows,
         col_labels=cols,
         steps=steps,
-        origin=Origin("counts", {"cells": array.tolist(), "row_labels": rows, "col_labels": cols,
-                                 "row_name": row_name, "col_name": col_name}),
+        origin=Origin(
+            "counts",
+            {
+                "cells": array.tolist(),
+                "row_labels": rows,
+                "col_labels": cols,
+                "row_name": row_name,
+                "col_name": col_name,
+            },
+        ),
         initial_steps=len(steps),
     )

@@ -1,4 +1,5 @@
-"""Tests of independence for one table: chi-square, likelihood ratio, linear-by-linear, permutation."""
+"""Tests of independence for one table: chi-square, likelihood ratio, linear-by-linear,
+permutation."""
 
 from __future__ import annotations
 
@@ -29,7 +30,8 @@ def _resolve_scores(scores, rows: np.ndarray, cols: np.ndarray):
         return midrank_scores(rows), midrank_scores(cols)
     if isinstance(scores, str):
         raise ValueError(
-            f"scores must be 'positions', 'midranks' or a pair (row_scores, col_scores); got {scores!r}."
+            "scores must be 'positions', 'midranks' or a pair (row_scores, col_scores); "
+            f"got {scores!r}."
         )
     try:
         row_scores, col_scores = (np.asarray(s, dtype=float) for s in scores)

@@ -362,7 +362,8 @@ class OrdinalTable:
                 k += 1
         if len(set(new_labels)) != len(new_labels):
             raise ValueError(
-                f"The merged labels {new_labels} are not all distinct; pass labels= to name the groups."
+                f"The merged labels {new_labels} are not all distinct; "
+                "pass labels= to name the groups."
             )
         step = MergeStep(
             axis=axis,

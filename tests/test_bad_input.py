@@ -7,6 +7,7 @@ import warnings
 import numpy as np
 import pandas as pd
 import pytest
+
 import rankfold
 
 ORDINAL = ["gamma", "somers_d_col_given_row", "somers_d_row_given_col", "somers_d_symmetric",

@@ -11,9 +11,10 @@ import itertools
 import numpy as np
 import pandas as pd
 import pytest
+from statsmodels.stats.contingency_tables import Table
+
 import rankfold
 from tables_for_tests import associated_tables, expand_table, random_tables
-from statsmodels.stats.contingency_tables import Table
 
 
 def brute_force_pairs_with_cell(counts: np.ndarray, i: int, j: int) -> dict[str, int]:

@@ -5,9 +5,10 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 import pytest
+from scipy import stats
+
 import rankfold
 from rankfold.demo import AGE_BANDS, NO_ANSWER, RATINGS, TRIP_LENGTHS
-from scipy import stats
 
 
 @pytest.fixture(scope="module")

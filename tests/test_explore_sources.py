@@ -11,6 +11,7 @@ import threading
 import numpy as np
 import pandas as pd
 import pytest
+
 import rankfold
 import rankfold.sources
 from rankfold.widgets import explorer as explorer_module

@@ -9,6 +9,7 @@ import re
 import numpy as np
 import pandas as pd
 import pytest
+
 import rankfold
 from rankfold.widgets import render as render_module
 
@@ -325,3 +326,19 @@ def test_an_unexpected_failure_is_a_message_not_a_traceback(ex, monkeypatch):
     one(ex, "rankfold-colour-by").value = "row_percent"
     assert "Unexpected problem (RuntimeError: drawing failed)" in message(ex)
     assert ex.state.colour_by == "count"
+
+
+def test_a_text_column_with_a_given_order_can_be_reordered(df):
+    districts = ["Harbourside", "Old Mill", "Eastfield", "Upper Terrace"]
+    ex = rankfold.explore(df, "district", COL, order={"district": districts})
+    assert "district" in one(ex, "rankfold-row-picker").options
+    find(one(ex, "rankfold-editor-rows"), "rankfold-move-up")[2].click()  # Eastfield up
+    expected = rankfold.table(df, "district", COL, order={"district": districts}).reorder(
+        "rows", ["Harbourside", "Eastfield", "Old Mill", "Upper Terrace"])
+    assert_same_table(ex, expected)
+    namespace = {"df": df}
+    exec(ex.to_code(), namespace)
+    pd.testing.assert_frame_equal(namespace["measures"], ex.measures, check_exact=True)
+    with pytest.raises(ValueError, match="no_such_column"):
+        ex.set_variables(row="no_such_column")
+    assert "no_such_column" in message(ex) and ex.state.row == "district"

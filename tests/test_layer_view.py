@@ -10,6 +10,7 @@ import re
 import numpy as np
 import pandas as pd
 import pytest
+
 import rankfold
 from rankfold.widgets.layer_view import LayerSection, layer_heatmaps, layer_measures_html
 

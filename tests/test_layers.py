@@ -11,10 +11,11 @@ import itertools
 import numpy as np
 import pandas as pd
 import pytest
-import rankfold
-from rankfold.layers import partial_gamma_arrays
 from scipy import stats
 from statsmodels.stats.contingency_tables import StratifiedTable
+
+import rankfold
+from rankfold.layers import partial_gamma_arrays
 
 LAYERS = ["north", "south", "east"]
 

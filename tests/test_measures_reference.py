@@ -4,11 +4,12 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-import rankfold
-from tables_for_tests import associated_tables, expand_table, random_tables
 from scipy import stats
 from scipy.stats import contingency
 from statsmodels.stats.contingency_tables import Table
+
+import rankfold
+from tables_for_tests import associated_tables, expand_table, random_tables
 
 TABLES = associated_tables(seed=101, count=12)
 # Tables with empty rows or columns in the middle: references see only the used categories.

@@ -6,9 +6,10 @@ import itertools
 
 import numpy as np
 import pytest
+
 import rankfold
-from tables_for_tests import expand_table, random_tables
 from rankfold.concordance import cell_concordance
+from tables_for_tests import expand_table, random_tables
 
 PAIR_KEYS = ("concordant", "discordant", "tied_row_only", "tied_col_only", "tied_both")
 

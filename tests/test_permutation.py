@@ -7,6 +7,7 @@ from math import factorial, prod
 
 import numpy as np
 import pytest
+
 import rankfold
 from rankfold.ordinal_measures import ordinal_measure_arrays
 

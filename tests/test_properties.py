@@ -4,10 +4,11 @@ from __future__ import annotations
 
 import numpy as np
 import pandas as pd
-import rankfold
 from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 from hypothesis.extra.numpy import arrays
+
+import rankfold
 
 ORDINAL = ["gamma", "somers_d_col_given_row", "somers_d_row_given_col", "somers_d_symmetric",
            "tau_b", "tau_c", "spearman_rho"]

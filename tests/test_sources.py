@@ -16,6 +16,7 @@ from fractions import Fraction
 import numpy as np
 import pandas as pd
 import pytest
+
 import rankfold
 import rankfold.sources
 

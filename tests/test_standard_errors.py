@@ -6,10 +6,11 @@ import itertools
 
 import numpy as np
 import pytest
-import rankfold
-from tables_for_tests import associated_tables
-from rankfold.ordinal_measures import Sampling, delta_variance, ordinal_measure_arrays
 from scipy import stats
+
+import rankfold
+from rankfold.ordinal_measures import Sampling, delta_variance, ordinal_measure_arrays
+from tables_for_tests import associated_tables
 
 CONCORDANCE_KEYS = ["gamma", "somers_d_col_given_row", "somers_d_row_given_col",
                     "somers_d_symmetric", "tau_b", "tau_c"]

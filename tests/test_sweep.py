@@ -16,8 +16,10 @@ import math
 import numpy as np
 import pandas as pd
 import pytest
+from scipy import stats
+from scipy.stats.contingency import expected_freq
+
 import rankfold
-from tables_for_tests import expand_table
 from rankfold.collapsing import (
     coding_groups,
     coding_of,
@@ -26,8 +28,7 @@ from rankfold.collapsing import (
     rule_met,
     sweep_ranges,
 )
-from scipy import stats
-from scipy.stats.contingency import expected_freq
+from tables_for_tests import expand_table
 
 # An invented 5 x 4 table: ordered rows and columns, sparse corners, one empty cell pattern.
 SMALL = np.array([[8, 3, 1, 0], [4, 6, 3, 1], [1, 4, 7, 2], [0, 1, 3, 5], [0, 0, 1, 2]])

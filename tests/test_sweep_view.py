@@ -11,6 +11,7 @@ import ipywidgets as widgets
 import numpy as np
 import pandas as pd
 import pytest
+
 import rankfold
 from rankfold.collapsing import coding_of, rule_met, sweep_ranges
 from rankfold.widgets import explorer as explorer_module

@@ -4,10 +4,11 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-import rankfold
-from tables_for_tests import random_tables
 from statsmodels.stats.contingency_tables import Table2x2
 from statsmodels.stats.proportion import confint_proportions_2indep, proportions_ztest
+
+import rankfold
+from tables_for_tests import random_tables
 
 FULL = [t for t in random_tables(seed=31, count=80, min_side=2, max_side=2, max_cell=40,
                                  zero_share=0.0) if (t > 0).all()][:10]

@@ -9,6 +9,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 import pytest
+
 import rankfold
 from rankfold.ordinal_measures import ordinal_measure_arrays
 

@@ -5,6 +5,7 @@ from __future__ import annotations
 from collections.abc import Callable, Hashable, Sequence
 
 import ipywidgets as widgets
+
 from rankfold import ExcludeStep, MergeStep, OrderStep
 from rankfold.steps import Step, merged_label
 
@@ -161,6 +162,7 @@ class CategoryEditor:
         toggle = _small(widgets.ToggleButton(value=False, description="merge ⇕"),
                         "rankfold-merge-toggle", "")
         toggle.layout.margin = "0 0 0 40px"
+        toggle.layout.align_self = "flex-start"
 
         def merged(change: dict) -> None:
             if change["new"]:

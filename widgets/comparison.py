@@ -7,6 +7,7 @@ from collections.abc import Callable
 import altair as alt
 import ipywidgets as widgets
 import pandas as pd
+
 from rankfold import measure_label
 
 from . import formatting

@@ -57,6 +57,7 @@ from typing import Any
 
 import ipywidgets as widgets
 import pandas as pd
+
 from rankfold import OrdinalTable
 
 from . import formatting
@@ -89,17 +90,19 @@ SECTIONS: list[tuple[str, Callable[[Callable, Callable], Any]]] = [
 
 _STYLE = """<style>
 .rankfold-explorer { color: var(--jp-ui-font-color1, inherit); }
+.rankfold-measures-box .widget-html-content, .rankfold-pair-summary .widget-html-content,
+.rankfold-comparison-summary .widget-html-content { line-height: 1.4; }
 .rankfold-measures, .rankfold-comparison-table, .rankfold-pair-table {
   border-collapse: collapse; font-variant-numeric: tabular-nums; margin: 4px 0; }
 .rankfold-measures th, .rankfold-measures td, .rankfold-comparison-table th,
 .rankfold-comparison-table td, .rankfold-pair-table th, .rankfold-pair-table td {
-  padding: 2px 8px; text-align: right;
+  padding: 2px 8px; text-align: right; white-space: nowrap;
   border-bottom: 1px solid var(--jp-border-color2, rgba(128, 128, 128, 0.35)); }
 .rankfold-measures th[scope=row], .rankfold-comparison-table th[scope=row],
 .rankfold-pair-table td:first-child, .rankfold-pair-table td:nth-child(2) {
   text-align: left; font-weight: normal; }
 .rankfold-measures td.rankfold-note { text-align: left; font-size: 90%; opacity: 0.8;
-  max-width: 30em; }
+  max-width: 30em; white-space: normal; }
 .rankfold-group td { text-align: left; font-style: italic; opacity: 0.8; }
 .rankfold-warning, .rankfold-message-error, .rankfold-message-info {
   padding: 4px 8px; margin: 6px 0; border-left: 4px solid #d08a00; }

@@ -7,6 +7,7 @@ from pathlib import Path
 
 import altair as alt
 import ipywidgets as widgets
+
 from rankfold import OrdinalTable
 
 from . import formatting

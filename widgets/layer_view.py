@@ -16,6 +16,7 @@ from collections.abc import Callable
 import altair as alt
 import ipywidgets as widgets
 import pandas as pd
+
 import rankfold
 from rankfold import OrdinalTable
 

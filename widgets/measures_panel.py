@@ -5,6 +5,7 @@ from __future__ import annotations
 from collections.abc import Sequence
 
 import pandas as pd
+
 from rankfold import OrdinalTable, measure_label
 
 from . import formatting

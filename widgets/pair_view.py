@@ -7,6 +7,7 @@ from collections.abc import Callable, Hashable
 import altair as alt
 import ipywidgets as widgets
 import pandas as pd
+
 from rankfold import PairRegions
 from rankfold.pair_regions import REGIONS
 

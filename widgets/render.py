@@ -13,6 +13,7 @@ from typing import Any
 
 import altair as alt
 import pandas as pd
+
 import rankfold
 from rankfold import Diagnostics, OrdinalTable, PairRegions
 

@@ -16,9 +16,9 @@ import altair as alt
 import ipywidgets as widgets
 import numpy as np
 import pandas as pd
+
 import rankfold
 from rankfold import OrdinalTable, measure_label
-from rankfold.steps import merged_label
 from rankfold.collapsing import (
     DEFAULT_MAX_SCHEMES,
     DEFAULT_SWEEP_MEASURES,
@@ -30,6 +30,7 @@ from rankfold.collapsing import (
     rule_met,
     sweep_ranges,
 )
+from rankfold.steps import merged_label
 
 from . import formatting
 from .chart_pane import CLICK, ChartPane

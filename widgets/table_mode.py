@@ -18,6 +18,7 @@ from typing import Any
 
 import ipywidgets as widgets
 import pandas as pd
+
 from rankfold import OrdinalTable
 from rankfold.sources import engine_name, schema
 

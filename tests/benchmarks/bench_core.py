@@ -23,9 +23,10 @@ import tracemalloc
 
 import numpy as np
 import pandas as pd
+from scipy import stats
+
 import rankfold
 from rankfold.ordinal_measures import ordinal_measure_arrays
-from scipy import stats
 
 
 def best_time(func, repeats: int) -> float:

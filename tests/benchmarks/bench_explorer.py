@@ -22,6 +22,7 @@ import time
 from dataclasses import replace
 
 import pandas as pd
+
 import rankfold
 from rankfold.widgets.render import TableCache, render
 from rankfold.widgets.state import Edit, ExplorerState

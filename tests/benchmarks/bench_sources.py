@@ -68,6 +68,7 @@ def measure(way: str, path: str) -> None:
     """Run in a child process: count one way, print JSON with time, memory and the table."""
     import duckdb  # noqa: F401  (imported by both ways, so the memory at start is comparable)
     import pandas as pd
+
     import rankfold
 
     start_mib = peak_rss_mib()

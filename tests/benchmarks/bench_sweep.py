@@ -11,6 +11,7 @@ import time
 import tracemalloc
 
 import numpy as np
+
 import rankfold
 
 LOOP_SUBSET = 150

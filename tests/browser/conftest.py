@@ -28,7 +28,7 @@ from urllib.parse import urlsplit
 
 import pytest
 
-CHROMIUM = Path("/usr/bin/chromium-not-here")
+CHROMIUM = Path("/usr/bin/chromium")
 CHROMIUM_ARGS = [
     "--no-sandbox",  # CI runs as root
     "--disable-gpu",
@@ -81,7 +81,7 @@ def pytest_runtest_makereport(item: pytest.Item, call: pytest.CallInfo):
 
 
 # ------------------------------------------------------------------------------- the browser
-@pytest.fixture(scope="session")
+@pytest.fixture(scope="module")
 def chromium_path() -> Path:
     """Debian's Chromium: skipped locally when missing, a failure when CI is set."""
     if not CHROMIUM.exists():
@@ -95,9 +95,10 @@ def chromium_path() -> Path:
     return CHROMIUM
 
 
-@pytest.fixture(scope="session")
+@pytest.fixture(scope="module")
 def browser(chromium_path: Path):
-    """A headless Chromium for the whole session, launched through Playwright."""
+    """A headless Chromium for one test module, launched through Playwright (module scope, so
+    neither it nor the Lab server outlives the browser tests in a full run)."""
     sync_api = pytest.importorskip(
         "playwright.sync_api", reason="Playwright is missing: pip install -e '.[test]'"
     )
@@ -241,10 +242,13 @@ def _stop(process: subprocess.Popen) -> None:
             process.wait(timeout=10)
 
 
-@pytest.fixture(scope="session")
-def lab_server(tmp_path_factory: pytest.TempPathFactory) -> Iterator[LabServer]:
+@pytest.fixture(scope="module")
+def lab_server(
+    tmp_path_factory: pytest.TempPathFactory, chromium_path: Path
+) -> Iterator[LabServer]:
     """JupyterLab started from this test's Python on 127.0.0.1 with a random port and token, a
-    temporary root directory and private config, settings and runtime directories."""
+    temporary root directory and private config, settings and runtime directories (started
+    only when there is a browser to use it)."""
     pytest.importorskip("jupyterlab", reason="JupyterLab is missing: pip install -e '.[test]'")
     home = tmp_path_factory.mktemp("lab")
     root = home / "notebooks"
