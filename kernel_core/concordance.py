@@ -33,11 +33,11 @@ def cell_concordance(counts: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     -----
     With these, ``P = sum n_ij C_ij`` and ``Q = sum n_ij D_ij`` count ordered pairs of units
     (each unordered concordant pair twice), the convention of Goodman & Kruskal (1954) as used
-    by Agresti (2010, sec. 7.1). Both come from cumulative sums of the table and of its
-    reversals, so the cost is O(I*J) whatever the number of units: ``C_ij`` adds the
-    cells above-left to those below-right (both read off one 2-D cumulative sum), and
-    ``D_ij`` is what remains of the units in another row and another column,
-    ``n - n_i+ - n_+j + n_ij - C_ij``.
+    by Agresti (2010, sec. 7.1). Both come from two 2-D cumulative sums, one from the top-left
+    corner and one from the bottom-right, so the cost is O(I*J) whatever the number of units:
+    the rows above a cell give the units above-left (read off directly) and above-right (the
+    rest of those rows), and likewise below. A region with no units gives exactly 0, also for
+    weighted totals, so a table without discordant pairs has gamma exactly 1.
 
     References
     ----------
@@ -46,17 +46,20 @@ def cell_concordance(counts: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     Agresti, A. (2010). Analysis of Ordinal Categorical Data, 2nd ed., Wiley, ch. 7.
     """
     n = np.asarray(counts)
-    through = n.cumsum(axis=-2).cumsum(axis=-1)  # sum over cells (<= i, <= j)
-    rows_through = through[..., :, -1:]  # units in rows <= i
-    cols_through = through[..., -1:, :]  # units in columns <= j
-    total = through[..., -1:, -1:]
-    above_left = np.zeros_like(through)
-    above_left[..., 1:, 1:] = through[..., :-1, :-1]
-    below_right = total - rows_through - cols_through + through
-    concordant = above_left + below_right
-    # units in another row and another column are either concordant or discordant
-    untied = total - n.sum(axis=-1, keepdims=True) - n.sum(axis=-2, keepdims=True) + n
-    return concordant, untied - concordant
+    forward = n.cumsum(axis=-2).cumsum(axis=-1)  # sum over cells (<= i, <= j)
+    backward = n[..., ::-1, ::-1].cumsum(axis=-2).cumsum(axis=-1)[..., ::-1, ::-1]  # (>= i, >= j)
+    above = np.zeros_like(forward)  # rows < i, columns <= j
+    above[..., 1:, :] = forward[..., :-1, :]
+    below = np.zeros_like(backward)  # rows > i, columns >= j
+    below[..., :-1, :] = backward[..., 1:, :]
+    above_left = np.zeros_like(above)
+    above_left[..., :, 1:] = above[..., :, :-1]
+    below_right = np.zeros_like(below)
+    below_right[..., :, :-1] = below[..., :, 1:]
+    # a difference of two running sums that add only zeros in between is exactly 0
+    above_right = above[..., -1:] - above
+    below_left = below[..., :1] - below
+    return above_left + below_right, above_right + below_left
 
 
 def pair_counts(counts: np.ndarray) -> dict[str, Any]:
@@ -86,6 +89,12 @@ def pair_counts(counts: np.ndarray) -> dict[str, Any]:
     n = np.asarray(counts)
     if n.ndim != 2:
         raise ValueError(f"pair_counts needs one 2-D table; got an array with shape {n.shape}.")
+    bad = ~(np.isfinite(n.astype(float)) & (n.astype(float) >= 0))
+    if bad.any():
+        cell = np.argwhere(bad)[0].tolist()
+        raise ValueError(
+            f"pair_counts needs finite, non-negative counts; cell {cell} is {n[tuple(cell)]}."
+        )
     whole = bool(np.all(np.mod(n, 1) == 0))
     if whole:
         cells = n.astype(object)

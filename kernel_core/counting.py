@@ -11,7 +11,7 @@ import numpy as np
 import pandas as pd
 
 from .ordinal_table import OrdinalTable, Origin
-from .steps import ExcludeStep, OrderStep, Step
+from .steps import ExcludeStep, OrderStep, Step, label_list
 
 if TYPE_CHECKING:
     from .sources import Tally
@@ -157,6 +157,7 @@ def code_column(
     in_order = np.array_equal(lookup[:-1], np.arange(len(uniques)))
     new_codes = codes if in_order else lookup[codes]
     n_excluded = int(np.count_nonzero(new_codes < 0)) - n_missing
+    missing_label = None
     if not dropna and n_missing:
         if MISSING_LABEL in position:
             raise ValueError(
@@ -165,19 +166,46 @@ def code_column(
             )
         labels = [*labels, MISSING_LABEL]
         new_codes = np.where(missing_mask, len(labels) - 1, new_codes)
-        n_missing = 0
-    steps.append(OrderStep(axis=axis, variable=name, labels=tuple(labels), origin=origin))
+        n_missing, missing_label = 0, MISSING_LABEL
+    steps.append(OrderStep(axis, name, tuple(labels), origin, missing_label))
     return CodedColumn(new_codes, tuple(labels), n_missing, n_excluded, tuple(steps))
 
 
 def check_columns(available: Sequence[Hashable], columns: Sequence[str | None]) -> None:
-    """Raise unless every named role is an available column and no column has two roles."""
-    absent = [c for c in columns if c is not None and c not in available]
+    """Raise unless every named role is one available column and no column has two roles;
+    ``columns`` are the row, column, layer and weight columns, in that order (None: unused)."""
+    named = [c for c in columns if c is not None]
+    if not all(isinstance(c, Hashable) for c in named):
+        raise ValueError(f"Name each column by a single label, such as 'age'; got {named}.")
+    absent = [c for c in named if c not in available]
     if absent:
         raise ValueError(f"Column(s) {absent} not in the data; its columns are {list(available)}.")
-    named = [c for c in columns if c is not None]
     if len(set(named)) != len(named):
-        raise ValueError(f"Each role needs its own column; got {named}.")
+        roles = [r for r, c in zip(("row", "column", "layer", "weight"), columns, strict=True)
+                 if c is not None]
+        twice = next(c for c in named if named.count(c) > 1)
+        both = [r for r, c in zip(roles, named, strict=True) if c == twice]
+        raise ValueError(
+            f"Column {twice!r} cannot be both the {both[0]} and the {both[1]} variable: each role "
+            "needs its own column, so choose another one for one of them."
+        )
+    doubled = [c for c in named if sum(a == c for a in available) > 1]
+    if doubled:
+        raise ValueError(
+            f"The data has more than one column named {doubled}; rename them so each name is "
+            "used once (e.g. df.columns = [...])."
+        )
+
+
+def check_total(total: float, what: str) -> None:
+    """Raise if a table's total is so large or small that products of counts (up to the
+    fourth power, as in tau-b) would leave the range of double-precision numbers."""
+    if total > 0 and not 1e-40 <= total <= 1e40:
+        raise ValueError(
+            f"The {what} add up to {total:.3g}; rankfold computes with totals between 1e-40 and "
+            "1e40, beyond which products of counts leave the range of floating point. Rescale "
+            "them (the estimates do not depend on scale; standard errors treat totals as counts)."
+        )
 
 
 def check_weights(weight: str, bad_nan: int, bad_inf: int, bad_neg: int) -> None:
@@ -261,7 +289,7 @@ def table(
     layer : str, optional
         A third variable to hold fixed: one table per category (may be nominal).
     weight : str, optional
-        A column of non-negative weights.
+        A column of non-negative weights (their total between 1e-40 and 1e40, or 0).
     weight_kind : {'frequency', 'sampling'}
         ``"frequency"``: each record stands for ``w`` identical units (results equal those on
         the expanded records). ``"sampling"``: survey weights; estimates use the weighted
@@ -303,15 +331,20 @@ def table(
         raise ValueError(f"weight_kind must be 'frequency' or 'sampling'; got {weight_kind!r}.")
     if weight_kind == "sampling" and weight is None:
         raise ValueError("weight_kind='sampling' needs a weight column: pass weight='your_column'.")
-    order = dict(order or {})
-    exclude = dict(exclude or {})
-    for key, what in ((order, "order"), (exclude, "exclude")):
-        stray = [k for k in key if k not in (row, col, layer)]
+    if row is None or col is None:
+        raise ValueError(f"table needs a row and a col column; got row={row!r}, col={col!r}.")
+    options = {}
+    for what, given in (("order", order), ("exclude", exclude)):
+        if given is not None and not isinstance(given, Mapping):
+            raise ValueError(
+                f"{what}= must be a dict {{column: [labels]}}, e.g. {what}={{{row!r}: [...]}}; "
+                f"got {given!r}."
+            )
+        stray = [k for k in (given or {}) if k not in (row, col, layer)]
         if stray:
             raise ValueError(f"{what}= names {stray}, which are not among row, col or layer.")
-        for k, v in key.items():
-            if isinstance(v, (str, bytes)) or not isinstance(v, Sequence):
-                raise ValueError(f"{what}[{k!r}] must be a list of labels; got {v!r}.")
+        options[what] = {k: label_list(v, f"{what}[{k!r}]") for k, v in (given or {}).items()}
+    order, exclude = options["order"], options["exclude"]
     source, tally = data, None
     if isinstance(data, pd.DataFrame):
         check_columns(data.columns, [row, col, layer, weight])
@@ -339,6 +372,11 @@ def table(
     r, c = coded["row"], coded["col"]
     n_i, n_j = len(r.labels), len(c.labels)
     n_k = len(coded["layer"].labels) if layer is not None else 1
+    if n_k == 0:
+        raise ValueError(
+            f"The layer column {layer!r} has no category left to hold fixed: every value is "
+            "missing or excluded. Leave out layer=, or keep missing values with dropna=False."
+        )
     size = n_k * n_i * n_j
     cell_type = np.min_scalar_type(-size - 1)  # the narrowest signed type holding every cell
     flat = np.multiply(r.codes, n_j, dtype=cell_type) + c.codes
@@ -360,6 +398,7 @@ def table(
             w = _kept(tally.weight_sum, keep)
             whole = not _kept(tally.fractional, keep).any()
         cells = _bincount(cells_flat, size, weights=w)
+        check_total(float(cells.sum()), f"weights in {weight!r}")
         if weight_kind == "frequency" and whole:
             cells = np.rint(cells).astype(np.int64)
         if weight_kind == "sampling":
@@ -427,7 +466,8 @@ def table_from_counts(
     ----------
     counts : array_like, shape (I, J)
         Non-negative finite counts, rows and columns in their order. Non-integer values are
-        allowed (weighted totals); they are then treated as multinomial counts.
+        allowed (weighted totals); they are then treated as multinomial counts. The total must
+        lie between 1e-40 and 1e40 (or be 0), the range the measures can be computed in.
     row_labels, col_labels : sequence, optional
         Category labels; default 1..I and 1..J. A pandas DataFrame supplies its own index
         and columns (and names) when these are not given.
@@ -470,15 +510,16 @@ def table_from_counts(
     if (array < 0).any():
         bad = np.argwhere(array < 0)[0].tolist()
         raise ValueError(f"counts must be non-negative; cell {bad} is {array[tuple(bad)]}.")
+    check_total(float(array.sum()), "counts")
     if np.all(np.mod(array, 1) == 0) and array.max(initial=0) < 2**62:
         given = np.asarray(counts)  # integers keep every digit (a float holds 53 bits)
         array = (given if np.issubdtype(given.dtype, np.integer) else array).astype(np.int64)
     n_i, n_j = array.shape
-    rows = tuple(
-        _python_scalar(x) for x in (row_labels if row_labels is not None else range(1, n_i + 1))
-    )
-    cols = tuple(
-        _python_scalar(x) for x in (col_labels if col_labels is not None else range(1, n_j + 1))
+    rows, cols = (
+        tuple(_python_scalar(x) for x in (
+            range(1, size + 1) if given is None else label_list(given, what)
+        ))
+        for given, size, what in ((row_labels, n_i, "row_labels"), (col_labels, n_j, "col_labels"))
     )
     if len(rows) != n_i or len(cols) != n_j:
         raise ValueError(
@@ -502,7 +543,8 @@ def table_from_counts(
         origin=Origin(
             "counts",
             {
-                "cells": array.tolist(),
+                # to_code prints these; a copy, so later edits of the input do not leak in
+                "cells": array.copy(),
                 "row_labels": rows,
                 "col_labels": cols,
                 "row_name": row_name,

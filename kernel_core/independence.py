@@ -44,6 +44,10 @@ def _resolve_scores(scores, rows: np.ndarray, cols: np.ndarray):
             f"scores need {rows.size} row scores and {cols.size} column scores; got "
             f"{row_scores.size} and {col_scores.size}."
         )
+    if not (np.isfinite(row_scores).all() and np.isfinite(col_scores).all()):
+        raise ValueError(
+            f"scores must be finite numbers; got {row_scores.tolist()} and {col_scores.tolist()}."
+        )
     return row_scores, col_scores
 
 
@@ -203,12 +207,18 @@ def permutation_test(
             "The permutation test needs whole-number counts; this table holds weighted totals. "
             "Use the delta-method intervals of measures() instead."
         )
-    if int(n_resamples) < 1:
+    whole = isinstance(n_resamples, (int, np.integer)) and not isinstance(n_resamples, bool)
+    if not whole or n_resamples < 1:
         raise ValueError(f"n_resamples must be a positive whole number; got {n_resamples!r}.")
     observed = float(ordinal_measure_arrays(n)[measure]["estimate"])
     if np.isnan(observed):
         raise ValueError(f"{measure} is undefined for this table, so it cannot be tested.")
-    rng = np.random.default_rng(seed)
+    try:
+        rng = np.random.default_rng(seed)
+    except (TypeError, ValueError) as err:
+        raise ValueError(
+            f"seed must be a whole number, a numpy Generator or None; got {seed!r}."
+        ) from err
     dist = stats.random_table(
         n.sum(axis=1).astype(np.int64), n.sum(axis=0).astype(np.int64), seed=rng
     )

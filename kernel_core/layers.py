@@ -19,7 +19,7 @@ from scipy import stats
 
 from .concordance import cell_concordance
 from .independence import _resolve_scores
-from .measure_table import inference_frame, sampling_note
+from .measure_table import inference_frame, interval_quantile, sampling_note
 from .ordinal_measures import Sampling, delta_variance, ordinal_measure_arrays
 
 if TYPE_CHECKING:
@@ -235,10 +235,7 @@ def partial_measures(table: OrdinalTable, confidence: float = 0.95) -> pd.DataFr
     confounders: the value is still an association, not a causal effect.
     """
     _require_layers(table, "partial_measures")
-    if not 0 < confidence < 1:
-        raise ValueError(
-            f"confidence must be strictly between 0 and 1 (e.g. 0.95); got {confidence!r}."
-        )
+    crit = interval_quantile(confidence)
     arrays = partial_gamma_arrays(table.cells, _layer_sampling(table))
     est, se, se0 = (float(arrays[f]) for f in ("estimate", "std_error", "std_error_null"))
     note = "no pair of units within a layer is untied on both variables" if np.isnan(est) else ""
@@ -246,7 +243,6 @@ def partial_measures(table: OrdinalTable, confidence: float = 0.95) -> pd.DataFr
         extra = sampling_note(float(table.cells.sum()), float(table.squared_weights.sum()))
         extra += "; each layer's records a sample of their own"
         note = f"{note}; {extra}" if note else extra
-    crit = float(stats.norm.ppf(0.5 + confidence / 2))
     return inference_frame(["partial_gamma"], [est], [se], [se0], [note], crit=crit)
 
 

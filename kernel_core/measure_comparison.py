@@ -15,7 +15,7 @@ _FIELDS = ("estimate", "ci_low", "ci_high", "p_value")
 def compare_measures(
     before: pd.DataFrame,
     after: pd.DataFrame,
-    keys: Sequence[str] | None = None,
+    keys: str | Sequence[str] | None = None,
 ) -> pd.DataFrame:
     """Estimates, intervals and p-values of two codings side by side, with the change.
 
@@ -24,7 +24,7 @@ def compare_measures(
     before, after : pandas.DataFrame
         Results of :meth:`OrdinalTable.measures` for two codings (for example the table as
         collected and after merging categories).
-    keys : sequence of str, optional
+    keys : str or sequence of str, optional
         Measure keys to keep, in this order; default: the keys present in both, in the order
         of ``after``.
 
@@ -54,6 +54,8 @@ def compare_measures(
         )
     if keys is None:
         keys = [k for k in after.index if k in before.index]
+    elif isinstance(keys, str):  # one key given alone
+        keys = [keys]
     absent = [k for k in keys if k not in before.index or k not in after.index]
     if absent:
         raise ValueError(

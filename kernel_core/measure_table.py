@@ -14,6 +14,7 @@ from .two_by_two import two_by_two_measures
 __all__ = [
     "COLUMNS",
     "inference_frame",
+    "interval_quantile",
     "measures_frame",
     "measure_label",
     "normal_p_value",
@@ -89,7 +90,8 @@ def _cramers_v(counts: np.ndarray, sampling: Sampling) -> dict[str, float]:
     """
     keep_r = counts.sum(axis=1) > 0
     keep_c = counts.sum(axis=0) > 0
-    n = counts[keep_r][:, keep_c]
+    full = keep_r.all() and keep_c.all()
+    n = counts if full else counts[np.ix_(keep_r, keep_c)]
     rows = n.sum(axis=1)[:, None]
     cols = n.sum(axis=0)[None, :]
     m = min(n.shape)
@@ -100,7 +102,9 @@ def _cramers_v(counts: np.ndarray, sampling: Sampling) -> dict[str, float]:
         - (n**2 / (rows**2 * cols)).sum(axis=1, keepdims=True)
         - (n**2 / (rows * cols**2)).sum(axis=0, keepdims=True)
     )
-    sq = None if sampling.squared is None else sampling.squared[keep_r][:, keep_c]
+    sq = sampling.squared
+    if sq is not None and not full:
+        sq = sq[np.ix_(keep_r, keep_c)]
     var_phi2 = delta_variance(n, grad_phi2, Sampling(sq, sampling.records))
     se = np.sqrt(var_phi2) / (2 * v * (m - 1)) if v > 0 else np.nan
     # Pearson's X^2 = n phi^2 on (I' - 1)(J' - 1) df (Cramer 1946, sec. 21.9); weighted
@@ -132,13 +136,9 @@ def measures_frame(
     pandas.DataFrame
         Indexed by measure key with columns :data:`COLUMNS`.
     """
-    if not 0 < confidence < 1:
-        raise ValueError(
-            f"confidence must be strictly between 0 and 1 (e.g. 0.95); got {confidence!r}."
-        )
+    crit = interval_quantile(confidence)
     sampling = sampling or Sampling()
     counts = np.asarray(counts, dtype=float)
-    crit = special.ndtri(0.5 + confidence / 2)  # standard normal quantile
     reasons = _undefined_reasons(counts)
     arrays = ordinal_measure_arrays(counts, sampling)
     records = []
@@ -186,6 +186,27 @@ def measures_frame(
     return inference_frame(
         keys, est, se, se0, notes, crit=crit, bounds=bounds, log_scale=log_scale, p_values=p_values
     )
+
+
+def interval_quantile(confidence: object) -> float:
+    """The normal quantile ``z_(1 - alpha/2)`` of a two-sided interval at ``confidence``.
+
+    Parameters
+    ----------
+    confidence : float
+        Confidence level, strictly between 0 and 1; anything else is refused.
+
+    Returns
+    -------
+    float
+        For example 1.959964 for 0.95 (the standard normal quantile; common practice).
+    """
+    number = isinstance(confidence, (int, float, np.integer, np.floating))
+    if isinstance(confidence, bool) or not number or not 0 < confidence < 1:
+        raise ValueError(
+            f"confidence must be a number strictly between 0 and 1 (e.g. 0.95); got {confidence!r}."
+        )
+    return float(special.ndtri(0.5 + confidence / 2))
 
 
 def sampling_note(total: float, squared: float) -> str:
@@ -259,10 +280,15 @@ def inference_frame(
     se0 = np.asarray(std_error_null, dtype=float)
     lo, hi = np.asarray(bounds if bounds is not None else [(-1.0, 1.0)] * size, dtype=float).T
     logs = np.asarray(log_scale if log_scale is not None else [False] * size, dtype=bool)
-    with np.errstate(invalid="ignore", divide="ignore"):
+    # overflow: a log-scale interval whose end is beyond floating point is +inf (tiny totals)
+    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
         centre = np.where(logs, np.log(np.where(est > 0, est, np.nan)), est)
-        ci_low = np.where(logs, np.exp(centre - crit * se), np.clip(est - crit * se, lo, hi))
-        ci_high = np.where(logs, np.exp(centre + crit * se), np.clip(est + crit * se, lo, hi))
+        ci_low = np.where(
+            logs, np.exp(centre - crit * se), np.minimum(np.maximum(est - crit * se, lo), hi)
+        )
+        ci_high = np.where(
+            logs, np.exp(centre + crit * se), np.minimum(np.maximum(est + crit * se, lo), hi)
+        )
         z = np.where(se0 > 0, centre / np.where(se0 > 0, se0, 1.0), np.nan)
     p = normal_p_value(z)
     if p_values is not None:
@@ -270,13 +296,15 @@ def inference_frame(
             [normal if other is None else other for normal, other in zip(p, p_values, strict=True)]
         )
     full_notes = []
-    for k, key in enumerate(keys):
-        parts = [notes[k]] if notes[k] else []
-        defined = not np.isnan(est[k])
-        if defined and se[k] == 0 and key != "cramers_v":
+    for key, note, e, s, s0 in zip(
+        keys, notes, est.tolist(), se.tolist(), se0.tolist(), strict=True
+    ):
+        parts = [note] if note else []
+        defined = e == e  # not NaN
+        if defined and s == 0 and key != "cramers_v":
             hint = "; use permutation_test" if key in ORDINAL_MEASURES else ""
             parts.append(f"estimate at its bound: the delta-method interval is degenerate{hint}")
-        if defined and key != "cramers_v" and not se0[k] > 0:
+        if defined and key != "cramers_v" and not s0 > 0:
             parts.append("no variation under independence: no z test")
         full_notes.append("; ".join(parts))
     columns = {

@@ -76,18 +76,22 @@ def delta_variance(counts: np.ndarray, grad: np.ndarray, sampling: Sampling) -> 
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
         linear = (counts * grad).sum(axis=(-2, -1))
         if sampling.squared is None:
-            square = (counts * grad**2).sum(axis=(-2, -1))
-            m = counts.sum(axis=(-2, -1))
+            # the same sum as sum n (g - gbar)^2, gbar = sum n g / n: centring first keeps
+            # the digits that the difference of two huge sums would lose (two-pass variance)
+            centred = grad - _expand(linear / counts.sum(axis=(-2, -1)))
+            var = (counts * centred**2).sum(axis=(-2, -1))
         else:
             square = (sampling.squared * grad**2).sum(axis=(-2, -1))
-            m = sampling.records
-        var = square - linear**2 / m
+            var = square - linear**2 / sampling.records
     return np.maximum(var, 0.0)
 
 
 def _divide(num: np.ndarray, den: np.ndarray) -> np.ndarray:
-    with np.errstate(invalid="ignore", divide="ignore"):
-        return np.where(den != 0, num / np.where(den != 0, den, 1.0), np.nan)
+    """``num / den``, NaN where ``den`` is 0."""
+    num, den = np.asarray(num, dtype=float), np.asarray(den, dtype=float)
+    out = np.full(np.broadcast_shapes(num.shape, den.shape), np.nan)
+    np.divide(num, den, out=out, where=den != 0)
+    return out
 
 
 def _expand(x: np.ndarray) -> np.ndarray:
@@ -159,8 +163,9 @@ def ordinal_measure_arrays(
     P = (n * conc).sum(axis=(-2, -1))
     Q = (n * disc).sum(axis=(-2, -1))
     S = P - Q
-    w_r = total**2 - (rows**2).sum(axis=-1)
-    w_c = total**2 - (cols**2).sum(axis=-1)
+    # n^2 - sum n_i+^2 summed as sum n_i+ (n - n_i+): no cancellation at huge counts
+    w_r = (rows * (np.asarray(total)[..., None] - rows)).sum(axis=-1)
+    w_c = (cols * (np.asarray(total)[..., None] - cols)).sum(axis=-1)
     N = _expand(total)
     row_grid = rows[..., :, None]
     col_grid = cols[..., None, :]
@@ -182,11 +187,11 @@ def ordinal_measure_arrays(
 
     # Each quotient numerator / den: numerator gradient 2 d_ij, den gradient given.
     def ratio(den, den_grad):
-        estimate = _divide(S, den)
-        den_x = _expand(den)
-        with np.errstate(invalid="ignore", divide="ignore"):
-            grad = (2 * d * den_x - _expand(S) * den_grad) / den_x**2
-        return finish(estimate, grad, _divide(1.0, den))
+        inverse = _divide(1.0, den)
+        with np.errstate(invalid="ignore"):
+            # (2 d_ij den - S den_grad) / den^2, with the per-table factors taken first
+            grad = _expand(2 * inverse) * d - _expand(S * inverse**2) * den_grad
+        return finish(_divide(S, den), grad, inverse)
 
     out["gamma"] = ratio(P + Q, 2 * (conc + disc))
     out["somers_d_col_given_row"] = ratio(w_r, 2 * (N - row_grid))
@@ -195,11 +200,12 @@ def ordinal_measure_arrays(
 
     w = np.sqrt(np.maximum(w_r * w_c, 0.0))  # rounding: w_r < 0 by 1 ulp
     tau_b = _divide(S, w)
-    w_x, tau_x = _expand(w), _expand(tau_b)
-    v = row_grid * _expand(w_c) + col_grid * _expand(w_r)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        grad = (2 * w_x * d + tau_x * v - tau_x * N * _expand(w_r + w_c)) / w_x**2
-    out["tau_b"] = finish(tau_b, grad, _divide(1.0, w))
+    inverse = _divide(1.0, w)
+    # v_ij - n (w_r + w_c) = -(w_c (n - n_i+) + w_r (n - n_+j)), summed without cancellation
+    spread = (N - row_grid) * _expand(w_c) + (N - col_grid) * _expand(w_r)
+    with np.errstate(invalid="ignore"):
+        grad = _expand(2 * inverse) * d - _expand(tau_b * inverse**2) * spread
+    out["tau_b"] = finish(tau_b, grad, inverse)
 
     m = np.minimum((rows > 0).sum(axis=-1), (cols > 0).sum(axis=-1)).astype(float)
     scale = _divide(m, (m - 1) * total**2)
@@ -214,51 +220,51 @@ def ordinal_measure_arrays(
     return out
 
 
-def _midrank_scores(margin: np.ndarray) -> np.ndarray:
-    """Midranks minus 1/2: units before the category plus half the category."""
-    return np.cumsum(margin, axis=-1) - margin / 2
+def _centred_midranks(margin: np.ndarray, total: np.ndarray) -> np.ndarray:
+    """Midrank scores less their mean: units before the category plus half of it, less n/2."""
+    return np.cumsum(margin, axis=-1) - margin / 2 - np.asarray(total)[..., None] / 2
 
 
 def _spearman(n, rows, cols, total, sampling):
     """Spearman's rho with midrank scores: estimate, delta-method and permutation SEs.
 
-    With ``a_i = N_(<i) + n_i+/2`` and ``b_j`` likewise (midranks less 1/2, which leaves the
-    correlation unchanged), ``sum n_i+ a_i = n^2/2``, so
-    ``S_ab = sum n_ij a_i b_j - n^3/4`` and ``S_aa = (n^3 - sum n_i+^3)/12``.
-    Differentiating, with ``R_i = sum_j n_ij b_j`` and ``K_j = sum_i n_ij a_i``:
-    ``dS_ab/dn_kl = a_k b_l + sum_(i>k) R_i + R_k/2 + sum_(j>l) K_j + K_l/2 - 3 n^2/4`` and
-    ``dS_aa/dn_kl = (n^2 - n_k+^2)/4``; then
-    ``d rho = dS_ab/sqrt(S_aa S_bb) - rho/2 (dS_aa/S_aa + dS_bb/S_bb)``.
+    With the centred midranks ``u_i = N_(<i) + n_i+/2 - n/2`` and ``v_j`` likewise,
+    ``S_uv = sum n_ij u_i v_j`` and ``S_uu = sum n_i+ u_i^2 = (n^3 - sum n_i+^3)/12``; centring
+    first keeps the digits that ``sum n_ij a_i b_j - n^3/4`` loses at huge counts.
+    Differentiating (each ``u_i`` moves by ``([k < i] - [k > i])/2`` when ``n_kl`` grows), with
+    ``R_i = sum_j n_ij v_j`` and ``K_j = sum_i n_ij u_i``, which sum to 0:
+    ``dS_uv/dn_kl = u_k v_l + sum_(i>k) R_i + R_k/2 + sum_(j>l) K_j + K_l/2`` and
+    ``dS_uu/dn_kl = (n - n_k+)(n + n_k+)/4``; then
+    ``d rho = dS_uv/sqrt(S_uu S_vv) - rho/2 (dS_uu/S_uu + dS_vv/S_vv)``.
     """
-    a = _midrank_scores(rows)
-    b = _midrank_scores(cols)
+    u = _centred_midranks(rows, total)
+    v = _centred_midranks(cols, total)
     N = _expand(total)
-    s_ab = (n * a[..., :, None] * b[..., None, :]).sum(axis=(-2, -1)) - total**3 / 4
-    s_aa = (total**3 - (rows**3).sum(axis=-1)) / 12
-    s_bb = (total**3 - (cols**3).sum(axis=-1)) / 12
-    denom = np.sqrt(np.maximum(s_aa * s_bb, 0.0))
-    rho = _divide(s_ab, denom)
-    R = (n * b[..., None, :]).sum(axis=-1)
-    K = (n * a[..., :, None]).sum(axis=-2)
+    s_uv = (n * u[..., :, None] * v[..., None, :]).sum(axis=(-2, -1))
+    s_uu = (rows * u**2).sum(axis=-1)
+    s_vv = (cols * v**2).sum(axis=-1)
+    denom = np.sqrt(np.maximum(s_uu * s_vv, 0.0))
+    rho = _divide(s_uv, denom)
+    R = (n * v[..., None, :]).sum(axis=-1)
+    K = (n * u[..., :, None]).sum(axis=-2)
     R_after = R.sum(axis=-1, keepdims=True) - np.cumsum(R, axis=-1)
     K_after = K.sum(axis=-1, keepdims=True) - np.cumsum(K, axis=-1)
-    d_sab = (
-        a[..., :, None] * b[..., None, :]
+    d_suv = (
+        u[..., :, None] * v[..., None, :]
         + (R_after + R / 2)[..., :, None]
         + (K_after + K / 2)[..., None, :]
-        - 3 * N**2 / 4
     )
-    d_saa = ((N[..., 0] ** 2 - rows**2) / 4)[..., :, None]
-    d_sbb = ((N[..., 0] ** 2 - cols**2) / 4)[..., None, :]
+    d_suu = ((N[..., 0] - rows) * (N[..., 0] + rows) / 4)[..., :, None]
+    d_svv = ((N[..., 0] - cols) * (N[..., 0] + cols) / 4)[..., None, :]
     with np.errstate(invalid="ignore", divide="ignore"):
-        grad = d_sab / _expand(denom) - _expand(rho) / 2 * (
-            d_saa / _expand(s_aa) + d_sbb / _expand(s_bb)
+        grad = d_suv / _expand(denom) - _expand(rho) / 2 * (
+            d_suu / _expand(s_uu) + d_svv / _expand(s_vv)
         )
     se = np.sqrt(delta_variance(n, grad, sampling))
     if sampling.squared is None:
         size = total
     else:
-        size = total**2 / sampling.squared.sum(axis=(-2, -1))
+        size = _divide(total**2, sampling.squared.sum(axis=(-2, -1)))  # NaN with no weight
     with np.errstate(invalid="ignore", divide="ignore"):
         se_null = np.where(size > 1, 1 / np.sqrt(np.maximum(size - 1, 1e-300)), np.nan)
     se_null = np.where(np.isnan(rho), np.nan, se_null)

@@ -15,7 +15,7 @@ from .independence import PermutationResult, permutation_test, tests_frame
 from .layers import layer_counts, layer_measures, layer_tests, partial_measures, single_layer
 from .measure_table import measures_frame
 from .ordinal_measures import Sampling
-from .steps import ExcludeStep, MergeStep, OrderStep, Step, merged_label
+from .steps import ExcludeStep, MergeStep, OrderStep, Step, default_merge_label, label_list
 
 __all__ = ["OrdinalTable"]
 
@@ -29,9 +29,20 @@ def _check_axis(axis: str) -> int:
 
 
 def label_literal(label: Hashable) -> str:
-    """Python source that evaluates to ``label`` (pandas Intervals included)."""
+    """Python source that evaluates to ``label`` given ``import pandas as pd``.
+
+    numpy scalars become plain Python values (numpy 2 prints ``np.float64(1.5)``), and pandas
+    Intervals (e.g. from ``pd.cut``), Timestamps and Timedeltas are spelled with ``pd.``.
+    """
+    if isinstance(label, np.datetime64):
+        label = pd.Timestamp(label)
+    elif isinstance(label, np.generic):
+        label = label.item()
     if isinstance(label, pd.Interval):
-        return f"pd.Interval({label.left!r}, {label.right!r}, closed={label.closed!r})"
+        return (f"pd.Interval({label_literal(label.left)}, {label_literal(label.right)}, "
+                f"closed={label.closed!r})")
+    if isinstance(label, (pd.Timestamp, pd.Timedelta)):
+        return f"pd.{type(label).__name__}({str(label)!r})"
     return repr(label)
 
 
@@ -303,7 +314,9 @@ class OrdinalTable:
             Each group lists neighbouring categories to merge; categories in no group stay
             as they are.
         labels : sequence, optional
-            New label for each group; default ``"first–last"``.
+            New label for each group; default ``"first–last"`` of the categories as counted
+            that the group covers (merging an earlier ``"40–59"`` with ``"60+"`` gives
+            ``"40–60+"``; see :func:`rankfold.steps.default_merge_label`).
 
         Returns
         -------
@@ -326,6 +339,8 @@ class OrdinalTable:
             )
         flat = [x for g in groups for x in g]
         self._positions(ax, flat, "merge")
+        if labels is not None:
+            labels = label_list(labels, "labels")
         if labels is not None and len(labels) != len(groups):
             raise ValueError(
                 f"Give one label per group: {len(groups)} groups, {len(labels)} labels."
@@ -352,9 +367,8 @@ class OrdinalTable:
                 members = [p for p in range(len(current)) if owner.get(p) == g]
                 new_groups.append(members)
                 chosen = labels[g] if labels is not None else None
-                new_labels.append(
-                    chosen if chosen is not None else merged_label([current[p] for p in members])
-                )
+                new_labels.append(chosen if chosen is not None else default_merge_label(
+                    self.steps, self._variable(ax), [current[p] for p in members]))
                 k = members[-1] + 1
             else:
                 new_groups.append([k])
@@ -381,7 +395,7 @@ class OrdinalTable:
         axis : {'rows', 'cols'}
             Which variable.
         labels : sequence of labels
-            Categories to drop.
+            Categories to drop (a single label may be given alone).
 
         Returns
         -------
@@ -389,7 +403,7 @@ class OrdinalTable:
             A new table without those categories.
         """
         ax = _check_axis(axis)
-        if isinstance(labels, (str, bytes)):
+        if not pd.api.types.is_list_like(labels):  # one label, of any type
             labels = [labels]
         drop = set(self._positions(ax, list(labels), "exclude"))
         current = self._labels(ax)
@@ -417,7 +431,8 @@ class OrdinalTable:
         """
         ax = _check_axis(axis)
         current = self._labels(ax)
-        pos = self._positions(ax, list(labels), "reorder")
+        labels = label_list(labels, "labels")
+        pos = self._positions(ax, labels, "reorder")
         if len(pos) != len(current):
             left = [x for x in current if x not in set(labels)]
             raise ValueError(f"reorder needs every category once; missing: {left}.")
@@ -502,13 +517,14 @@ class OrdinalTable:
                 f"col_name={args.get('col_name', self.col_name)!r},\n    )"
             )
         lines = ["import pandas as pd", "import rankfold", "", "table = (", f"    {call}"]
-        for step in self.steps[self.initial_steps :]:
+        for index, step in enumerate(self.steps[self.initial_steps :], self.initial_steps):
             if isinstance(step, MergeStep):
                 pairs = [
                     (g, lab) for g, lab in zip(step.groups, step.labels, strict=True) if len(g) > 1
                 ]
                 groups = "[" + ", ".join(_list_literal(g) for g, _ in pairs) + "]"
-                custom = [lab for g, lab in pairs if lab != merged_label(g)]
+                custom = [lab for g, lab in pairs
+                          if lab != default_merge_label(self.steps[:index], step.variable, g)]
                 tail = f", labels={_list_literal([lab for _, lab in pairs])}" if custom else ""
                 lines.append(f"    .merge({step.axis!r}, {groups}{tail})")
             elif isinstance(step, ExcludeStep):

@@ -6,15 +6,28 @@ reader, turned back into code, and applied to the raw column for use in other an
 
 from __future__ import annotations
 
-from collections.abc import Hashable, Sequence
+from collections.abc import Hashable, Mapping, Sequence
 from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
 
-__all__ = ["OrderStep", "ExcludeStep", "MergeStep", "Step", "apply_steps", "merged_label"]
+__all__ = [
+    "OrderStep", "ExcludeStep", "MergeStep", "Step", "apply_steps", "label_list", "merged_label",
+    "collected_members", "default_merge_label",
+]
 
 AXES = ("rows", "cols")
+
+
+def label_list(labels: object, what: str) -> list:
+    """``labels`` as a list, refusing a bare label (a string would be split into letters) and
+    an unordered set; ``what`` names the argument in the message."""
+    if not pd.api.types.is_list_like(labels) or isinstance(labels, (set, frozenset, Mapping)):
+        raise ValueError(
+            f"{what} must be a list of labels in order, e.g. ['low', 'high']; got {labels!r}."
+        )
+    return list(labels)
 
 
 def merged_label(group: Sequence[Hashable]) -> str:
@@ -24,19 +37,76 @@ def merged_label(group: Sequence[Hashable]) -> str:
     return f"{group[0]}–{group[-1]}"
 
 
+def collected_members(steps: Sequence[Step], variable: str) -> dict[Hashable, tuple]:
+    """For each current category of ``variable``, the categories as counted that it covers.
+
+    Parameters
+    ----------
+    steps : sequence of steps
+        A table's complete ``steps``.
+    variable : str
+        The variable whose categories to trace.
+
+    Returns
+    -------
+    dict
+        Current label -> tuple of labels of the table as counted, in order (a category that
+        was never merged covers only itself).
+    """
+    members: dict[Hashable, tuple] = {}
+    for step in steps:
+        if step.variable != variable:
+            continue
+        if isinstance(step, OrderStep) and not members:
+            members = {label: (label,) for label in step.labels}
+        elif isinstance(step, MergeStep):
+            members = {new: sum((members.get(old, (old,)) for old in group), ())
+                       for group, new in zip(step.groups, step.labels, strict=True)}
+        elif isinstance(step, ExcludeStep):
+            members = {k: v for k, v in members.items() if k not in step.labels}
+    return members
+
+
+def default_merge_label(steps: Sequence[Step], variable: str, group: Sequence[Hashable]) -> str:
+    """The label :meth:`OrdinalTable.merge` gives ``group`` (current labels of ``variable``)
+    by default: :func:`merged_label` of the categories as counted that the group covers, so
+    merging ``"40–59"`` with ``"60+"`` gives ``"40–60+"``, not ``"40–59–60+"``.
+
+    Parameters
+    ----------
+    steps : sequence of steps
+        The complete ``steps`` of the table before the merge.
+    variable : str
+        The merged variable.
+    group : sequence of labels
+        Neighbouring current categories; a single one keeps its label.
+
+    Returns
+    -------
+    str
+    """
+    if len(group) == 1:
+        return merged_label(group)
+    members = collected_members(steps, variable)
+    return merged_label([original for label in group
+                         for original in members.get(label, (label,))])
+
+
 @dataclass(frozen=True)
 class OrderStep:
     """The categories of ``variable`` take the order ``labels``.
 
     ``origin`` says where the order came from: ``"declared"`` (an ordered Categorical),
     ``"numeric"`` (sorted values), ``"given"`` (the ``order=`` argument) or ``"reorder"``
-    (a later :meth:`OrdinalTable.reorder`).
+    (a later :meth:`OrdinalTable.reorder`). ``missing_label`` is the category that holds the
+    missing values when the table kept them (``dropna=False``), else None.
     """
 
     axis: str
     variable: str
     labels: tuple
     origin: str
+    missing_label: Hashable | None = None
 
     def describe(self) -> str:
         shown = ", ".join(map(str, self.labels))
@@ -93,19 +163,7 @@ def _replay(values: pd.Series, steps: Sequence[Step]) -> pd.Categorical:
                 categorical = categorical.remove_categories(list(step.labels))
         elif isinstance(step, OrderStep):
             if categorical is None:
-                raw = (
-                    current.astype(object)
-                    if isinstance(current.dtype, pd.CategoricalDtype)
-                    else current
-                )
-                categorical = pd.Categorical(raw, categories=list(step.labels), ordered=True)
-                lost = raw.notna().to_numpy() & (np.asarray(categorical.codes) < 0)
-                if lost.any():
-                    unknown = sorted({str(v) for v in raw[lost].unique()})
-                    raise ValueError(
-                        f"Column {name!r} holds values the steps do not place: {unknown}. "
-                        "Apply the steps to the same column the table was built from."
-                    )
+                categorical = _first_order(values, current, step)
             else:
                 categorical = categorical.reorder_categories(list(step.labels))
         else:
@@ -120,6 +178,28 @@ def _replay(values: pd.Series, steps: Sequence[Step]) -> pd.Categorical:
             )
     assert categorical is not None
     return categorical
+
+
+def _first_order(values: pd.Series, current: pd.Series, step: OrderStep) -> pd.Categorical:
+    """The raw column (``current``: excluded values already missing) as the step's categories;
+    values missing in the raw column go to ``step.missing_label`` when the table kept them."""
+    raw = current.astype(object) if isinstance(current.dtype, pd.CategoricalDtype) else current
+    labels = list(step.labels)
+    # the same lookup as counting: each distinct value by hash, missing values to -1
+    found, uniques = pd.factorize(raw, use_na_sentinel=True)
+    position = {label: k for k, label in enumerate(labels)}
+    lookup = np.array([position.get(u, -1) for u in uniques] + [-1], dtype=np.int64)
+    codes = lookup[found]
+    lost = (found >= 0) & (codes < 0)
+    if lost.any():  # checked before building the Categorical, which would warn
+        unknown = sorted({str(v) for v in raw[lost].unique()})
+        raise ValueError(
+            f"Column {values.name!r} holds values the steps do not place: {unknown}. "
+            "Apply the steps to the same column the table was built from."
+        )
+    if step.missing_label is not None:
+        codes[values.isna().to_numpy()] = labels.index(step.missing_label)
+    return pd.Categorical.from_codes(codes, categories=labels, ordered=True)
 
 
 def apply_steps(data: pd.Series | pd.DataFrame, steps: Sequence[Step]) -> pd.Series | pd.DataFrame:
@@ -137,7 +217,8 @@ def apply_steps(data: pd.Series | pd.DataFrame, steps: Sequence[Step]) -> pd.Ser
     -------
     pandas.Series or pandas.DataFrame
         For a Series, a new Series (same index) of ordered Categorical dtype whose categories
-        are the table's final categories; excluded values become missing. For a DataFrame,
+        are the table's final categories; excluded values become missing, and missing values
+        go to the table's missing category when it kept one (``dropna=False``). For a DataFrame,
         a copy in which every variable named in ``steps`` is replaced that way.
 
     Examples
@@ -156,15 +237,12 @@ def apply_steps(data: pd.Series | pd.DataFrame, steps: Sequence[Step]) -> pd.Ser
             raise ValueError(
                 f"None of the variables the steps refer to ({variables}) is a column of the frame."
             )
-        replaced = {
-            v: pd.Series(
-                _replay(data[v], [s for s in steps if s.variable == v]),
-                index=data.index,
-                name=v,
+        out = data.copy()  # column names need not be strings, so no assign(**...)
+        for v in present:
+            out[v] = pd.Series(
+                _replay(data[v], [s for s in steps if s.variable == v]), index=data.index, name=v
             )
-            for v in present
-        }
-        return data.assign(**replaced)
+        return out
     if not isinstance(data, pd.Series):
         raise ValueError(
             f"apply_steps takes a pandas Series or DataFrame, not {type(data).__name__}."

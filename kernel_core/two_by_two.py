@@ -122,4 +122,7 @@ def two_by_two_measures(counts: np.ndarray) -> dict[str, dict[str, float | str]]
                 if x
             ),
         }
+    for measure in out.values():  # an estimate that is undefined has no standard error either
+        if np.isnan(measure["estimate"]):
+            measure["std_error"] = measure["std_error_null"] = np.nan
     return out

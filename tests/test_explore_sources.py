@@ -83,8 +83,8 @@ def test_pickers_list_the_source_columns_from_their_types(parquet_path):
     # numbers can be put in order; text ('gym', 'mood') cannot without order=
     assert offered == ["sessions_per_month", "route_grade", "years_member", "stay_minutes",
                        "weight"]
-    layers = [value for _, value in pickers._layer.options]
-    assert layers == [None, "sessions_per_month", "route_grade", "years_member", "gym", "mood"]
+    layers = [label for label, _ in pickers._layer.options]
+    assert layers == ["none", "sessions_per_month", "route_grade", "years_member", "gym", "mood"]
     weights = [value for _, value in pickers._weight.options]
     assert "weight" in weights and "gym" not in weights
 

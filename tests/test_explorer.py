@@ -6,6 +6,7 @@ from __future__ import annotations
 import json
 import re
 
+import altair as alt
 import numpy as np
 import pandas as pd
 import pytest
@@ -342,3 +343,78 @@ def test_a_text_column_with_a_given_order_can_be_reordered(df):
     with pytest.raises(ValueError, match="no_such_column"):
         ex.set_variables(row="no_such_column")
     assert "no_such_column" in message(ex) and ex.state.row == "district"
+
+
+def test_toggles_and_code_name_a_twice_merged_band_alike(df):
+    by_toggles = rankfold.explore(df, ROW, COL)
+    merge_toggle(by_toggles, "5–10 km", "10–20 km").value = True
+    merge_toggle(by_toggles, "5–10 km–10–20 km", "over 20 km").value = True
+    by_code = rankfold.explore(df, ROW, COL)
+    by_code.merge("rows", [["5–10 km", "10–20 km"]])
+    by_code.merge("rows", [["5–10 km–10–20 km", "over 20 km"]])
+    # "first–last" of the categories as counted, the core's rule for both ways in
+    expected = ("under 2 km", "2–5 km", "5–10 km–over 20 km")
+    assert by_toggles.table.row_labels == by_code.table.row_labels == expected
+    # Source: the merged band counted by hand with pandas from the records.
+    far = df[ROW].isin(["5–10 km", "10–20 km", "over 20 km"])
+    expected_counts = df.loc[far, COL].value_counts().reindex(list(by_code.table.col_labels))
+    np.testing.assert_array_equal(by_code.table.counts.loc["5–10 km–over 20 km"].to_numpy(),
+                                  expected_counts.to_numpy())
+
+
+def test_refused_roles_keep_the_pickers_on_none(df):
+    signed = df.assign(score=np.linspace(-1.0, 1.0, len(df)))
+    ex = rankfold.explore(signed, ROW, COL)
+    layer, weight = one(ex, "rankfold-layer-picker"), one(ex, "rankfold-weight-picker")
+    kept = ex.table
+    weight.label = "score"  # negative weights are refused ...
+    assert "negative value" in message(ex) and "score" in message(ex)
+    assert ex.table is kept and ex.state.weight is None
+    # ... and the picker shows "none" again (a Dropdown value of None would show it blank)
+    assert (weight.index, weight.label) == (0, "none")
+    layer.label = ROW  # the row variable cannot also be the layer
+    assert f"&#x27;{ROW}&#x27; cannot be both the row and the layer variable" in message(ex)
+    assert (layer.index, layer.label) == (0, "none") and ex.table is kept
+    layer.label = "district"
+    assert ex.table.layer_name == "district" and message(ex) == ""
+    layer.label = "none"
+    assert ex.table.layer_name is None and (layer.index, layer.label) == (0, "none")
+
+
+def test_chart_panes_say_their_charts_are_vega_lite(df):
+    # The panes drop "$schema" (no address in the page), so the page must be told the kind of
+    # specification: from its keys alone the layers view's concatenated chart passes for Vega
+    # and draws nothing.
+    ex = rankfold.explore(df, ROW, COL, layer="age_band")
+    panes = {"Heatmap": "rankfold-heatmap", "Compare": "rankfold-comparison",
+             "Codings": "rankfold-sweep", "Layers": "rankfold-layer-heatmaps"}
+    for title, css in panes.items():
+        open_tab(ex, title)
+        (chart,) = one(ex, css).children
+        assert isinstance(chart, alt.JupyterChart) and "$schema" not in chart.spec
+        assert chart.embed_options["mode"] == "vega-lite"
+    assert "concat" in chart.spec  # the layers view
+
+
+def test_a_note_every_measure_shares_is_written_once(df):
+    ex = rankfold.explore(df, ROW, COL, weight="survey_weight", weight_kind="sampling")
+    panel = one(ex, "rankfold-measures-box").value
+    caution = "Taylor-linearised errors"
+    assert all(caution in note for note in ex.measures["note"])  # the core's note on every row
+    assert panel.count(caution) == 1 and "Every measure above: sampling weights" in panel
+    assert "no p-value with sampling weights" in panel  # Cramér's V keeps its own part
+
+
+def test_heatmap_legends_draw_no_svg_gradient(df):
+    # Each chart on a page numbers its SVG gradients from 0, so a second chart's gradient
+    # legend would paint the first one's gradient (or none when that one sits in a hidden tab).
+    vl_convert = pytest.importorskip("vl_convert")
+    from rankfold.widgets.layer_view import layer_heatmaps
+
+    ex = rankfold.explore(df, ROW, COL, layer="age_band")
+    for colour_by in ("count", "pair_contribution"):
+        ex.set_view(colour_by=colour_by)
+        for chart in (ex.chart("heatmap"), layer_heatmaps(ex.table, colour_by)):
+            svg = vl_convert.vegalite_to_svg(chart.to_dict())
+            assert "<rect" in svg or "<path" in svg
+            assert "linearGradient" not in svg

@@ -126,10 +126,22 @@ def test_pickers_change_roles_and_refuse_conflicts(visits):
     pickers._weight.value = "visit_weight"
     pickers._kind.value = "sampling"
     assert (ex.state.weight, ex.state.weight_kind) == ("visit_weight", "sampling")
-    pickers._weight.value = None  # dropping the weight drops the sampling reading too
+    pickers._weight.label = "none"  # dropping the weight drops the sampling reading too
     assert (ex.state.weight, ex.state.weight_kind) == (None, "frequency")
     assert pickers._kind.disabled
-    pickers._layer.value = None
+    pickers._layer.label = "none"
     section = next(s for s in ex._sections if isinstance(s, LayerSection))
     section.show(ex._rendered)
     assert "Choose a layer variable" in section._numbers.value
+
+
+def test_the_grid_puts_no_more_heatmaps_side_by_side_than_fit(layered):
+    from rankfold.widgets.heatmap import CELL_WIDTH
+    from rankfold.widgets.layer_view import GRID_WIDTH
+
+    wide = layer_heatmaps(layered, "count").to_dict()  # 5 satisfaction columns + totals
+    assert CELL_WIDTH * 6 * 2 > GRID_WIDTH and wide["columns"] == 1
+    narrow_table = layered.merge("cols", [["very unhappy", "unhappy", "neutral"],
+                                          ["happy", "very happy"]])
+    narrow = layer_heatmaps(narrow_table, "count").to_dict()  # 2 columns + totals
+    assert narrow["columns"] == 2 and len(narrow["concat"]) == 3

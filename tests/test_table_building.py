@@ -133,6 +133,26 @@ def test_exclude_and_merge_and_reorder_on_the_table_sum_the_right_cells():
         t.merge("rows", [["a", "c"]])
 
 
+def test_merging_a_merged_band_is_named_by_the_categories_as_counted():
+    counts = np.arange(1, 11).reshape(2, 5)
+    t = rankfold.table_from_counts(counts, ["lo", "hi"], ["18", "40", "60", "70", "80"],
+                                   col_name="age")
+    # Naming rule (ours, documented in OrdinalTable.merge): "first–last" of the categories as
+    # counted, however many merges the band went through; a band named by hand is traced too.
+    twice = t.merge("cols", [["40", "60"], ["70", "80"]]).merge("cols", [["40–60", "70–80"]])
+    assert twice.col_labels == ("18", "40–80")
+    named = t.merge("cols", [["40", "60"]], labels=["middle"]).merge("cols", [["middle", "70"]])
+    assert named.col_labels == ("18", "40–70", "80")
+    # Source: the same bands summed by hand with numpy.
+    np.testing.assert_array_equal(twice.counts.to_numpy()[:, 1], counts[:, 1:].sum(axis=1))
+    # The printed code rebuilds the same labels (it names only the hand-named band).
+    for table in (twice, named):
+        namespace: dict = {}
+        exec(table.to_code(), namespace)  # noqa: S102 - the point is that the printed code runs
+        assert namespace["table"].col_labels == table.col_labels
+    assert ", labels=['middle']" in named.to_code() and ", labels=" not in twice.to_code()
+
+
 def test_table_is_immutable_and_operations_return_new_tables():
     counts = np.array([[3, 1], [2, 5]])
     t = rankfold.table_from_counts(counts)

@@ -2,12 +2,11 @@
 
 from __future__ import annotations
 
-from collections.abc import Callable, Hashable, Sequence
+from collections.abc import Callable, Hashable
 
 import ipywidgets as widgets
 
-from rankfold import ExcludeStep, MergeStep, OrderStep
-from rankfold.steps import Step, merged_label
+from rankfold import OrderStep
 
 from . import formatting
 from .state import Edit
@@ -22,35 +21,6 @@ def _small(widget: widgets.DOMWidget, css_class: str, tooltip: str) -> widgets.D
     widget.tooltip = tooltip
     widget.add_class(css_class)
     return widget
-
-
-def collected_members(steps: Sequence[Step], variable: str) -> dict[Hashable, tuple]:
-    """For each current category of ``variable``, the categories as counted that it covers.
-
-    Parameters
-    ----------
-    steps : sequence of steps
-        A table's complete ``steps``.
-    variable : str
-        The variable whose categories to trace.
-
-    Returns
-    -------
-    dict
-        Current label -> tuple of labels of the table as counted, in order.
-    """
-    members: dict[Hashable, tuple] = {}
-    for step in steps:
-        if step.variable != variable:
-            continue
-        if isinstance(step, OrderStep) and not members:
-            members = {label: (label,) for label in step.labels}
-        elif isinstance(step, MergeStep):
-            members = {new: sum((members[old] for old in group), ())
-                       for group, new in zip(step.groups, step.labels, strict=True)}
-        elif isinstance(step, ExcludeStep):
-            members = {k: v for k, v in members.items() if k not in step.labels}
-    return members
 
 
 class _CategoryRow:
@@ -99,7 +69,6 @@ class CategoryEditor:
         self._propose = propose
         self._variable = ""
         self._labels: list = []
-        self._members: dict = {}
         self._rows: list[_CategoryRow] = []
         self._toggles: list[widgets.ToggleButton] = []
         self._title = widgets.HTML()
@@ -115,7 +84,6 @@ class CategoryEditor:
                       if isinstance(s, OrderStep) and s.variable == self._variable)
         totals = rendered.axis_totals(self._axis)
         self._labels = [label for label, _ in totals]
-        self._members = collected_members(rendered.table.steps, self._variable)
         size = len(totals)
         while len(self._rows) < size:
             self._rows.append(_CategoryRow(self, len(self._rows)))
@@ -150,12 +118,9 @@ class CategoryEditor:
         self._propose(lambda s: s.with_edit(edit))
 
     def merge(self, k: int) -> None:
-        """Propose merging the k-th category with the next one, labelled by the first and last
-        of the categories as collected that the two cover (``"poor–good"``, not
-        ``"poor–fair–good"`` after two merges)."""
-        upper, lower = self._labels[k], self._labels[k + 1]
-        name = merged_label([self._members[upper][0], self._members[lower][-1]])
-        edit = Edit("merge", self._variable, ((upper, lower),), names=(name,))
+        """Propose merging the k-th category with the next one (named by the core's rule:
+        ``"poor–good"`` after two merges, not ``"poor–fair–good"``)."""
+        edit = Edit("merge", self._variable, ((self._labels[k], self._labels[k + 1]),))
         self._propose(lambda s: s.with_edit(edit))
 
     def _merge_toggle(self, k: int) -> widgets.ToggleButton:

@@ -21,7 +21,10 @@ __all__ = ["ChartPane", "CLICK", "building", "inline_data"]
 #: Name of the point selection a clickable chart declares; its fields identify the cell.
 CLICK = "cell"
 
-_EMBED_OPTIONS = {"actions": False, "renderer": "svg"}
+# The mode is stated because the pane drops "$schema" (below), from which the page would
+# otherwise guess it; without either, a concatenated chart (the layers view) is taken for a
+# Vega specification and draws nothing.
+_EMBED_OPTIONS = {"actions": False, "renderer": "svg", "mode": "vega-lite"}
 
 
 def building():

@@ -75,7 +75,8 @@ def comparison_chart(comparison: pd.DataFrame, row_name: str, col_name: str) -> 
             data=inline_data(points), layer=[zero, bars, dots], width=420,
             height=alt.Step(16),
             title=alt.Title("As collected and under the current coding",
-                            subtitle="same units both times: overlapping intervals are no test"),
+                            subtitle="the same units (fewer after exclusions): overlapping "
+                                     "intervals are no test of a difference"),
             background="#ffffff",
         )
 

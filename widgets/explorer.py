@@ -101,6 +101,9 @@ _STYLE = """<style>
 .rankfold-measures th[scope=row], .rankfold-comparison-table th[scope=row],
 .rankfold-pair-table td:first-child, .rankfold-pair-table td:nth-child(2) {
   text-align: left; font-weight: normal; }
+.rankfold-measures thead th:first-child, .rankfold-measures thead th:last-child,
+.rankfold-comparison-table thead th:first-child, .rankfold-pair-table thead th:first-child,
+.rankfold-pair-table thead th:nth-child(2) { text-align: left; }
 .rankfold-measures td.rankfold-note { text-align: left; font-size: 90%; opacity: 0.8;
   max-width: 30em; white-space: normal; }
 .rankfold-group td { text-align: left; font-style: italic; opacity: 0.8; }

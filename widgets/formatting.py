@@ -4,9 +4,9 @@ from __future__ import annotations
 
 import html
 import math
-from collections.abc import Hashable
+from collections.abc import Hashable, Sequence
 
-__all__ = ["amount", "estimate", "interval", "p_value", "text", "signed_amount"]
+__all__ = ["amount", "estimate", "interval", "p_value", "text", "signed_amount", "shared_note"]
 
 DASH = "–"
 
@@ -54,3 +54,21 @@ def signed_amount(value: float) -> str:
     """Like :func:`amount` with an explicit sign for positive values."""
     shown = amount(value)
     return f"+{shown}" if value > 0 else shown
+
+
+def shared_note(notes: Sequence[str]) -> tuple[str, list[str]]:
+    """Split the notes of a table's rows into what every row says and what is left of each.
+
+    The core writes a note as parts joined by ``"; "``; a part found in every note (such as
+    the sampling-weights caution) is returned once, so a panel can show it above or below the
+    table instead of on every row. With fewer than two notes nothing is shared.
+
+    Returns
+    -------
+    (str, list of str)
+        The shared parts joined by ``"; "`` (empty if none), and each note without them.
+    """
+    parts = [[part for part in note.split("; ") if part] for note in notes]
+    shared = ([part for part in parts[0] if all(part in other for other in parts[1:])]
+              if len(parts) > 1 else [])
+    return "; ".join(shared), ["; ".join(p for p in own if p not in shared) for own in parts]

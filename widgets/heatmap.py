@@ -84,6 +84,7 @@ def heatmap_chart(
     col_name: str,
     chosen: tuple[int, int] | None = None,
     scale_max: float | None = None,
+    weight: str | None = None,
 ) -> alt.LayerChart:
     """Heatmap of a table with the value printed in each cell and marginal totals.
 
@@ -101,6 +102,8 @@ def heatmap_chart(
     scale_max : float, optional
         Largest absolute value the colour scale must reach; give the same value to several
         charts (one per layer) so that they share one colour scale.
+    weight : str, optional
+        The weight column, named in the subtitle: the cells then hold sums of weights.
 
     Returns
     -------
@@ -144,11 +147,14 @@ def heatmap_chart(
             scale = alt.Scale(scheme="blues", domain=[0, largest])
         click = alt.selection_point(name=CLICK, fields=["row_position", "col_position"],
                                     on="click")
+        # Swatches, not a gradient: every chart on a page numbers its SVG gradients from 0, so
+        # with two charts one legend would paint the other's gradient (or none, if hidden).
+        legend = alt.Legend(orient="bottom", type="symbol", direction="horizontal",
+                            symbolType="square", symbolSize=160, symbolStrokeWidth=0)
         rect = alt.Chart().mark_rect(stroke="#ffffff", strokeWidth=1, cursor="pointer").encode(
             x=x, y=y,
             color=alt.Color(field="value", type="quantitative", scale=scale,
-                            title=COLOUR_CHOICES[colour_by],
-                            legend=alt.Legend(orient="bottom", gradientLength=200)),
+                            title=COLOUR_CHOICES[colour_by], legend=legend),
         ).transform_filter("datum.ink != 'total'").add_params(click)
         ink = alt.Color(field="ink", type="nominal", legend=None, scale=alt.Scale(
             domain=["dark", "light", "total"], range=["#1a1a1a", "#ffffff", "#595959"]))
@@ -169,7 +175,8 @@ def heatmap_chart(
             width=alt.Step(CELL_WIDTH),
             height=alt.Step(CELL_HEIGHT),
             title=alt.Title(f"{row_name} by {col_name}: {COLOUR_CHOICES[colour_by]}",
-                            subtitle="totals in grey; click a cell to see its pairs"),
+                            subtitle=(f"sums of the weight {weight}; " if weight else "")
+                            + "totals in grey; click a cell to see its pairs"),
             background="#ffffff",
         )
 

@@ -22,7 +22,7 @@ from rankfold import OrdinalTable
 
 from . import formatting
 from .chart_pane import ChartPane
-from .heatmap import heatmap_chart
+from .heatmap import CELL_WIDTH, heatmap_chart
 
 __all__ = ["layer_heatmaps", "layer_measures_html", "LayerSection", "LAYER_CAUTIONS"]
 
@@ -33,13 +33,19 @@ LAYER_CAUTIONS = (
     "trying layers until one gives the hoped-for answer inflates false findings.",
     "Small layers give wide intervals; check each layer's n.",
 )
+#: Widest grid of layer heatmaps, in pixels, before the next heatmap goes below (about the
+#: width a notebook leaves for the explorer's tabs).
+GRID_WIDTH = 900
+_ROW_LABELS_WIDTH = 180  # row labels and axis title beside each heatmap
+
 _NO_LAYER = (
     '<p class="rankfold-hint">Choose a layer variable above to see the table and the '
     "association within each of its categories.</p>"
 )
 
 
-def layer_heatmaps(table: OrdinalTable, colour_by: str, columns: int = 2) -> alt.ConcatChart:
+def layer_heatmaps(table: OrdinalTable, colour_by: str,
+                   columns: int | None = None) -> alt.ConcatChart:
     """One heatmap per layer, all on the same colour scale.
 
     Parameters
@@ -48,8 +54,9 @@ def layer_heatmaps(table: OrdinalTable, colour_by: str, columns: int = 2) -> alt
         A layered table.
     colour_by : str
         A key of :data:`rankfold.widgets.state.COLOUR_CHOICES`.
-    columns : int
-        Heatmaps per row of the grid.
+    columns : int, optional
+        Heatmaps per row of the grid; default: as many as fit in :data:`GRID_WIDTH` pixels
+        (at least one), so that no heatmap is cut off at the right.
 
     Returns
     -------
@@ -60,6 +67,9 @@ def layer_heatmaps(table: OrdinalTable, colour_by: str, columns: int = 2) -> alt
     """
     parts = [(label, rankfold.cell_figures(table.layer_table(label)))
              for label in table.layer_labels]
+    if columns is None:
+        width = CELL_WIDTH * (len(table.col_labels) + 1) + _ROW_LABELS_WIDTH  # + totals column
+        columns = max(1, GRID_WIDTH // width)
     values = pd.concat([figures[colour_by] for _, figures in parts]).astype(float).abs()
     shared = float(values.max()) if values.notna().any() else 0.0
     panels = []
@@ -67,8 +77,10 @@ def layer_heatmaps(table: OrdinalTable, colour_by: str, columns: int = 2) -> alt
         panel = heatmap_chart(figures, colour_by, table.row_name, table.col_name,
                               scale_max=shared)
         panel.background = alt.Undefined  # set once on the whole grid (concat requires it)
-        panel.title = alt.Title(f"{table.layer_name} = {label}",
-                                subtitle=f"n = {formatting.amount(figures['count'].sum())}")
+        weighted = f" (sum of the weight {table.weight})" if table.weight else ""
+        panel.title = alt.Title(
+            f"{table.layer_name} = {label}",
+            subtitle=f"n = {formatting.amount(figures['count'].sum())}{weighted}")
         panels.append(panel)
     with warnings.catch_warnings():
         # Every panel declares the same click selection; Altair merges them into one, which
@@ -78,7 +90,7 @@ def layer_heatmaps(table: OrdinalTable, colour_by: str, columns: int = 2) -> alt
     return grid.resolve_scale(color="shared")
 
 
-def _row(key: str, label: str, n: float | None, record: pd.Series, kind: str) -> str:
+def _row(key: str, label: str, n: float | None, record: pd.Series, kind: str, note: str) -> str:
     count = "" if n is None else formatting.amount(n)
     return (
         f'<tr data-{kind}="{formatting.text(key)}"><th scope="row">{formatting.text(label)}</th>'
@@ -86,7 +98,7 @@ def _row(key: str, label: str, n: float | None, record: pd.Series, kind: str) ->
         f'<td class="rankfold-estimate">{formatting.estimate(record.estimate)}</td>'
         f"<td>{formatting.interval(record.ci_low, record.ci_high)}</td>"
         f"<td>{formatting.p_value(record.p_value)}</td>"
-        f'<td class="rankfold-note">{formatting.text(record.note)}</td></tr>'
+        f'<td class="rankfold-note">{formatting.text(note)}</td></tr>'
     )
 
 
@@ -120,17 +132,21 @@ def layer_measures_html(table: OrdinalTable, measures: pd.DataFrame, tests: pd.D
         HTML: a ``table.rankfold-layer-measures`` whose rows carry ``data-layer`` (one per
         layer) or ``data-measure`` (``partial_gamma``, ``gamma`` for the pooled value), the
         estimate in ``td.rankfold-estimate`` to 4 decimals; ``p.rankfold-layer-test`` lines
-        with ``data-test``; and ``ul.rankfold-cautions``.
+        with ``data-test``; and ``ul.rankfold-cautions``. A note part every row shares is
+        written once below the table, in ``p.rankfold-warning``.
     """
     per_layer = table.layer_measures(confidence).xs("gamma", level=1)
-    partial = table.partial_measures(confidence).loc["partial_gamma"]
-    rows = "".join(
-        _row(str(label), str(label), float(cells.sum()), per_layer.loc[label], "layer")
-        for label, cells in zip(table.layer_labels, table.cells, strict=True)
-    )
-    rows += _row("partial_gamma", "partial gamma (within layers)", table.n, partial, "measure")
-    rows += _row("gamma", "pooled gamma (layers ignored)", table.n, measures.loc["gamma"],
-                 "measure")
+    listed = [(str(label), str(label), float(cells.sum()), per_layer.loc[label], "layer")
+              for label, cells in zip(table.layer_labels, table.cells, strict=True)]
+    listed += [
+        ("partial_gamma", "partial gamma (within layers)", table.n,
+         table.partial_measures(confidence).loc["partial_gamma"], "measure"),
+        ("gamma", "pooled gamma (layers ignored)", table.n, measures.loc["gamma"], "measure"),
+    ]
+    shared, notes = formatting.shared_note([record.note for *_, record, _ in listed])
+    rows = "".join(_row(*row, note) for row, note in zip(listed, notes, strict=True))
+    shared_html = (f'<p class="rankfold-warning">Every row above: {formatting.text(shared)}.</p>'
+                   if shared else "")
     lines = (
         _test_line("gamma_homogeneity", "Same gamma in every layer? (homogeneity check)",
                    tests.loc["gamma_homogeneity"])
@@ -142,7 +158,7 @@ def layer_measures_html(table: OrdinalTable, measures: pd.DataFrame, tests: pd.D
         '<div class="rankfold-layer-panel"><table class="rankfold-layer-measures"><thead><tr>'
         f"<th>gamma by {formatting.text(table.layer_name)}</th><th>n</th><th>estimate</th>"
         f"<th>{confidence:.0%} interval</th><th>p</th><th>note</th></tr></thead><tbody>"
-        + rows + "</tbody></table>" + lines
+        + rows + "</tbody></table>" + shared_html + lines
         + f'<ul class="rankfold-cautions">{cautions}</ul></div>'
     )
 

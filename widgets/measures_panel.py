@@ -21,13 +21,13 @@ CAUTIONS = (
 _NOMINAL = ("cramers_v",)
 
 
-def _measure_row(key: str, record: pd.Series, label: str) -> str:
+def _measure_row(key: str, record: pd.Series, label: str, note: str) -> str:
     return (
         f'<tr data-measure="{key}"><th scope="row">{formatting.text(label)}</th>'
         f'<td class="rankfold-estimate" data-measure="{key}">{formatting.estimate(record.estimate)}'
         f"</td><td>{formatting.interval(record.ci_low, record.ci_high)}</td>"
         f"<td>{formatting.p_value(record.p_value)}</td>"
-        f'<td class="rankfold-note">{formatting.text(record.note)}</td></tr>'
+        f'<td class="rankfold-note">{formatting.text(note)}</td></tr>'
     )
 
 
@@ -62,14 +62,18 @@ def measures_html(
         HTML with a table of class ``rankfold-measures``. Each measure row has
         ``data-measure`` set to its key; the estimate cell has class ``rankfold-estimate``, the
         same ``data-measure`` and the estimate to 4 decimals (a dash when undefined, with the
-        reason in the note column).
+        reason in the note column). A note part every measure shares (such as the sampling
+        weights caution) is written once, as the first ``div.rankfold-warning`` below the table.
     """
     ordinal = [k for k in measures.index if k not in _NOMINAL]
     nominal = [k for k in measures.index if k in _NOMINAL]
+    shared, own = formatting.shared_note(list(measures["note"]))
+    notes = dict(zip(measures.index, own, strict=True))
 
     def rows(keys: list[str]) -> str:
         return "".join(
-            _measure_row(k, measures.loc[k], measure_label(k, table.row_name, table.col_name))
+            _measure_row(k, measures.loc[k], measure_label(k, table.row_name, table.col_name),
+                         notes[k])
             for k in keys
         )
 
@@ -90,7 +94,10 @@ def measures_html(
         counted.append(f"weighted by {formatting.text(table.weight)} ({table.weight_kind})")
     if table.layer_name:
         counted.append(f"pooled over the {len(table.layer_labels)} layers of "
-                       f"{formatting.text(table.layer_name)} (see the Layers tab)")
+                       f"{formatting.text(table.layer_name)}: the association within layers can "
+                       "differ, even in sign (see the Layers tab)")
+    if shared:
+        warnings = [f"Every measure above: {shared}.", *warnings]
     warning_html = "".join(f'<div class="rankfold-warning">{formatting.text(w)}</div>'
                            for w in warnings)
     cautions = "".join(f"<li>{formatting.text(c)}</li>" for c in CAUTIONS)

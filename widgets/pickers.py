@@ -11,6 +11,15 @@ from rankfold.counting import MAX_NUMERIC_LEVELS
 
 __all__ = ["orderable_columns", "layer_columns", "weight_columns", "VariablePickers"]
 
+#: The value behind "none" in the layer and weight pickers. Not None: ipywidgets reads a
+#: Dropdown value of None as "nothing selected" and would then show the picker blank.
+_NONE = object()
+
+
+def _column(value: object) -> str | None:
+    """The column a layer or weight picker's value names (None for "none")."""
+    return None if value is _NONE else value
+
 
 def orderable_columns(
     data: pd.DataFrame, order: Mapping[str, Sequence[Hashable]] | None = None
@@ -103,9 +112,9 @@ class VariablePickers:
         self._row.observe(lambda c: propose(lambda s: _pick(s, row=c["new"])), names="value")
         self._col.observe(lambda c: propose(lambda s: _pick(s, col=c["new"])), names="value")
         self._swap.on_click(lambda _: propose(lambda s: s.swapped()))
-        self._layer = widgets.Dropdown(options=[("none", None), *((c, c) for c in layers)],
+        self._layer = widgets.Dropdown(options=[("none", _NONE), *((c, c) for c in layers)],
                                        description="layer")
-        self._weight = widgets.Dropdown(options=[("none", None), *((c, c) for c in weights)],
+        self._weight = widgets.Dropdown(options=[("none", _NONE), *((c, c) for c in weights)],
                                         description="weight")
         self._kind = widgets.Dropdown(
             options=[("frequency: a row is w units", "frequency"),
@@ -117,11 +126,12 @@ class VariablePickers:
                             (self._weight, "rankfold-weight-picker"),
                             (self._kind, "rankfold-weight-kind")):
             widget.add_class(css)
-        self._layer.observe(lambda c: propose(lambda s: s.with_roles(layer=c["new"])),
+        self._layer.observe(lambda c: propose(lambda s: s.with_roles(layer=_column(c["new"]))),
                             names="value")
         # no weight means no weight kind: back to the default, which needs no column
         self._weight.observe(lambda c: propose(lambda s: s.with_roles(
-            weight=c["new"], weight_kind=s.weight_kind if c["new"] else "frequency")),
+            weight=_column(c["new"]),
+            weight_kind="frequency" if c["new"] is _NONE else s.weight_kind)),
             names="value")
         self._kind.observe(lambda c: propose(lambda s: s.with_roles(weight_kind=c["new"])),
                            names="value")
@@ -136,7 +146,8 @@ class VariablePickers:
         state = rendered.state
         self._row.value = state.row
         self._col.value = state.col
-        for picker, value in ((self._layer, state.layer), (self._weight, state.weight)):
+        for picker, column in ((self._layer, state.layer), (self._weight, state.weight)):
+            value = _NONE if column is None else column
             if value not in [v for _, v in picker.options]:  # given to explore() directly
                 picker.options = [*picker.options, (value, value)]
             picker.value = value

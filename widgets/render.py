@@ -118,7 +118,7 @@ class Rendered:
             if name == "heatmap":
                 chosen = None if self.regions is None else (self.regions.row, self.regions.col)
                 drawn = heatmap_chart(self.figures, self.state.colour_by, t.row_name, t.col_name,
-                                      chosen)
+                                      chosen, weight=t.weight)
             elif name == "pairs":
                 drawn = (None if self.regions is None
                          else pair_chart(self.figures, self.regions, t.row_name, t.col_name))

@@ -38,15 +38,13 @@ class Edit:
         survives swapping rows and columns.
     labels : tuple
         For ``merge``, the groups of neighbouring labels (a tuple of tuples); for ``exclude``,
-        the labels to leave out; for ``reorder``, every label in the new order.
-    names : tuple, optional
-        For ``merge``, the new label of each group (default: the core's ``"first–last"``).
+        the labels to leave out; for ``reorder``, every label in the new order. Merged groups
+        take the core's default label (:meth:`~rankfold.OrdinalTable.merge`).
     """
 
     kind: str
     variable: str
     labels: tuple
-    names: tuple | None = None
 
     def __post_init__(self) -> None:
         if self.kind not in _KINDS:
@@ -63,7 +61,7 @@ class Edit:
                 f"{self.variable!r} is neither the row nor the column variable of this table."
             )
         if self.kind == "merge":
-            return table.merge(axis, [list(group) for group in self.labels], labels=self.names)
+            return table.merge(axis, [list(group) for group in self.labels])
         return getattr(table, self.kind)(axis, list(self.labels))
 
 

@@ -362,10 +362,13 @@ class SweepSection:
         self._rendered = None
         self._summary = widgets.HTML()
         self._summary.add_class("rankfold-sweep-summary")
-        self._run = widgets.Button(description="Sweep every coding", icon="play")
+        # width "auto": the default width cuts the descriptions short
+        self._run = widgets.Button(description="Sweep every coding", icon="play",
+                                   layout=widgets.Layout(width="auto"))
         self._run.add_class("rankfold-sweep-run")
         self._run.on_click(lambda _: self._sweep_now())
-        self._use = widgets.Button(description="Use the suggested coding", icon="check")
+        self._use = widgets.Button(description="Use the suggested coding", icon="check",
+                                   layout=widgets.Layout(width="auto"))
         self._use.add_class("rankfold-sweep-use")
         self._use.on_click(lambda _: self._apply_suggestion())
         self._bar = widgets.IntProgress(min=0, max=1, value=0, description="codings",
