@@ -223,7 +223,7 @@ def sampling_note(total: float, squared: float) -> str:
         The note; the effective size is ``(sum w)^2 / sum w^2`` (Kish 1965, Survey Sampling,
         sec. 11.7), the number of unweighted records that would give about the same precision.
     """
-    size = f"{total**2 / squared:.1f}" if squared > 0 else "undefined (no weight)"
+    size = f"{total**2 / squared:,.1f}" if squared > 0 else "undefined (no weight)"
     return (
         "sampling weights: Taylor-linearised errors, rows as a with-replacement sample "
         f"(no clusters or strata); Kish effective n = {size}"
