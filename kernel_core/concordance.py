@@ -85,6 +85,10 @@ def pair_counts(counts: np.ndarray) -> dict[str, Any]:
     and ``Q / 2``; ``tied_both = sum n_ij (n_ij - 1) / 2``,
     ``tied_row_only = sum_i n_i+ (n_i+ - 1) / 2 - tied_both`` and likewise for columns
     (Agresti 2010, sec. 7.1.1).
+
+    References
+    ----------
+    Agresti, A. (2010). Analysis of Ordinal Categorical Data, 2nd ed., Wiley, sec. 7.1.
     """
     n = np.asarray(counts)
     if n.ndim != 2:

@@ -31,6 +31,11 @@ def sparse_cell_figures(expected: np.ndarray) -> dict[str, np.ndarray]:
     -----
     These are the inputs of Cochran's rule for the chi-square approximation: no expected count
     below 1 and at most 20% below 5 (Cochran 1954, Biometrics 10:417-451).
+
+    References
+    ----------
+    Cochran, W. G. (1954). Some methods for strengthening the common chi-square tests.
+    Biometrics 10, 417-451.
     """
     expected = np.asarray(expected, dtype=float)
     present = ~np.isnan(expected)
@@ -98,6 +103,16 @@ def diagnose(counts: pd.DataFrame) -> Diagnostics:
     Returns
     -------
     Diagnostics
+        The figures with their formulas as listed on :class:`Diagnostics`.
+
+    References
+    ----------
+    Haberman, S. J. (1973). The analysis of residuals in cross-classified tables.
+    Biometrics 29, 205-220.
+    Cochran, W. G. (1954). Some methods for strengthening the common chi-square tests.
+    Biometrics 10, 417-451.
+    Goodman, L. A. & Kruskal, W. H. (1954). Measures of association for cross
+    classifications. JASA 49, 732-764.
     """
     n = counts.to_numpy(dtype=float)
     total = n.sum()

@@ -18,7 +18,24 @@ TEST_KEYS = ("pearson_chi_square", "likelihood_ratio", "linear_by_linear")
 
 
 def midrank_scores(margin: np.ndarray) -> np.ndarray:
-    """Midrank score of each category: units before it plus (its size + 1) / 2."""
+    """Midrank score of each category: units before it plus (its size + 1) / 2.
+
+    Parameters
+    ----------
+    margin : ndarray, shape (K,)
+        Units (or sums of weights) in each category, in order.
+
+    Returns
+    -------
+    ndarray, shape (K,)
+        The mean of the ranks the category's units would share if every unit were ranked.
+
+    Notes
+    -----
+    ``s_k = sum_{l<k} n_l + (n_k + 1) / 2``: tied units share the average of their ranks
+    (common practice; with these scores the linear-by-linear r is Spearman's rho, Agresti
+    2010, sec. 2.2.3).
+    """
     margin = np.asarray(margin, dtype=float)
     return np.cumsum(margin) - margin / 2 + 0.5
 
@@ -196,6 +213,13 @@ def permutation_test(
     tables are drawn with :func:`scipy.stats.random_table` (Patefield 1981, Appl. Stat. 30:91)
     and the p-value counts the observed table, ``(1 + #{|T*| >= |T|}) / (B + 1)`` (Davison &
     Hinkley 1997, sec. 4.2). Differences below 1e-12 count as ties, against rounding.
+
+    References
+    ----------
+    Patefield, W. M. (1981). Algorithm AS 159: an efficient method of generating random
+    R x C tables with given row and column totals. Applied Statistics 30, 91-97.
+    Davison, A. C. & Hinkley, D. V. (1997). Bootstrap Methods and their Application.
+    Cambridge University Press, sec. 4.2.
     """
     from .ordinal_measures import ORDINAL_MEASURES, ordinal_measure_arrays
 

@@ -233,6 +233,11 @@ def partial_measures(table: OrdinalTable, confidence: float = 0.95) -> pd.DataFr
     layers that disagree; look at :func:`layer_measures` and the ``gamma_homogeneity`` row
     of :meth:`OrdinalTable.tests`. Holding one variable fixed does not remove other
     confounders: the value is still an association, not a causal effect.
+
+    References
+    ----------
+    Davis, J. A. (1967). A partial coefficient for Goodman and Kruskal's gamma. JASA 62,
+    189-193.
     """
     _require_layers(table, "partial_measures")
     crit = interval_quantile(confidence)

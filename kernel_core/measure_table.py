@@ -61,7 +61,19 @@ def measure_label(key: str, row_name: str, col_name: str) -> str:
 
 
 def normal_p_value(z: np.ndarray | float) -> np.ndarray:
-    """Two-sided p-value of a standard normal statistic, NaN where z is NaN."""
+    """Two-sided p-value of a standard normal statistic, NaN where z is NaN.
+
+    Parameters
+    ----------
+    z : ndarray or float
+        Standardised statistics.
+
+    Returns
+    -------
+    ndarray
+        ``2 Phi(-|z|)``, with ``Phi`` the standard normal distribution function (common
+        practice); evaluated from the lower tail so tiny p-values keep their precision.
+    """
     return 2 * special.ndtr(-np.abs(z))
 
 

@@ -146,6 +146,11 @@ class OrdinalTable:
         dict
             See :func:`rankfold.concordance.pair_counts`; exact Python integers when the counts
             are whole numbers.
+
+        Notes
+        -----
+        Counted on the table pooled over layers; the formulas and their source are in
+        :func:`rankfold.concordance.pair_counts` (Agresti 2010, sec. 7.1.1).
         """
         return pair_counts(self._pooled())
 
@@ -211,8 +216,32 @@ class OrdinalTable:
     ) -> PermutationResult:
         """Monte Carlo permutation p-value of a measure with both margins fixed.
 
-        See :func:`rankfold.independence.permutation_test`. It permutes units, so it is not
-        available for sampling weights, and it ignores layers (it tests the pooled table).
+        It permutes units, so it is not available for sampling weights, and it ignores layers
+        (it tests the pooled table).
+
+        Parameters
+        ----------
+        measure : str
+            An ordinal measure key such as ``gamma`` or ``tau_b``.
+        n_resamples : int
+            Number of random tables drawn.
+        seed : int or numpy.random.Generator, optional
+            For a reproducible result.
+
+        Returns
+        -------
+        PermutationResult
+
+        Raises
+        ------
+        ValueError
+            For a table with sampling weights.
+
+        Notes
+        -----
+        Tables are drawn and the p-value counted as in
+        :func:`rankfold.independence.permutation_test` (Patefield 1981; Davison & Hinkley
+        1997, sec. 4.2), which lists the references.
         """
         if self.weight_kind == "sampling":
             raise ValueError(
@@ -222,7 +251,14 @@ class OrdinalTable:
         return permutation_test(self._pooled(), measure, n_resamples, seed)
 
     def diagnostics(self) -> Diagnostics:
-        """Expected counts, adjusted residuals, pair contributions and sparse-cell figures."""
+        """Expected counts, adjusted residuals, pair contributions and sparse-cell figures.
+
+        Returns
+        -------
+        Diagnostics
+            Computed by :func:`rankfold.diagnostics.diagnose` on the table pooled over
+            layers; :attr:`Diagnostics.sources` names the published source of each figure.
+        """
         return diagnose(self.counts)
 
     # ---------------------------------------------------------------------------- layers
@@ -235,21 +271,58 @@ class OrdinalTable:
         return layer_counts(self)
 
     def layer_table(self, label: Hashable) -> OrdinalTable:
-        """One layer as a table of its own; see :func:`rankfold.layers.single_layer`."""
+        """One layer as a table of its own; see :func:`rankfold.layers.single_layer`.
+
+        Parameters
+        ----------
+        label : hashable
+            One of :attr:`layer_labels`.
+
+        Returns
+        -------
+        OrdinalTable
+            Without a layer, with that layer's cells (and survey-weight figures).
+        """
         return single_layer(self, label)
 
     def layer_measures(self, confidence: float = 0.95) -> pd.DataFrame:
         """The measures of each layer's own table, index (layer, measure).
 
-        See :func:`rankfold.layers.layer_measures`.
+        Parameters
+        ----------
+        confidence : float
+            Confidence level of the intervals, strictly between 0 and 1, the same for every
+            layer.
+
+        Returns
+        -------
+        pandas.DataFrame
+            See :func:`rankfold.layers.layer_measures`; each layer's rows are computed as in
+            :meth:`measures`, which gives the formulas and sources.
         """
         return layer_measures(self, confidence)
 
     def partial_measures(self, confidence: float = 0.95) -> pd.DataFrame:
         """Partial gamma: the association within layers, pooled (Davis 1967, JASA 62:189).
 
-        See :func:`rankfold.layers.partial_measures`; compare with :meth:`layer_measures` and
-        the ``gamma_homogeneity`` row of :meth:`tests` before reporting a single value.
+        Compare with :meth:`layer_measures` and the ``gamma_homogeneity`` row of :meth:`tests`
+        before reporting a single value.
+
+        Parameters
+        ----------
+        confidence : float
+            Level of its Wald interval, strictly between 0 and 1.
+
+        Returns
+        -------
+        pandas.DataFrame
+            A single ``partial_gamma`` row (see :func:`rankfold.layers.partial_measures`)
+            with the columns of :meth:`measures`.
+
+        References
+        ----------
+        Davis, J. A. (1967). A partial coefficient for Goodman and Kruskal's gamma. JASA 62,
+        189-193.
         """
         return partial_measures(self, confidence)
 
@@ -442,7 +515,14 @@ class OrdinalTable:
         return self._with_axis(ax, tuple(labels), [[p] for p in pos], step)
 
     def transpose(self) -> OrdinalTable:
-        """The same table with rows and columns swapped (steps are kept)."""
+        """The same table with rows and columns swapped (steps are kept).
+
+        Returns
+        -------
+        OrdinalTable
+            Rows become columns and columns rows, so ``somers_d_col_given_row`` of the result
+            is ``somers_d_row_given_col`` of this table.
+        """
 
         def swap(cells):
             return None if cells is None else np.swapaxes(cells, 1, 2)

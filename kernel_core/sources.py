@@ -83,6 +83,7 @@ class Request:
 
     @property
     def keys(self) -> list[str]:
+        """The columns to group by: row, column and, when given, layer."""
         return [k for k in (self.row, self.col, self.layer) if k is not None]
 
     def check(self, schema: pd.DataFrame) -> None:

@@ -109,6 +109,13 @@ class OrderStep:
     missing_label: Hashable | None = None
 
     def describe(self) -> str:
+        """One line for a list of steps.
+
+        Returns
+        -------
+        str
+            For example ``"size: order (given) S, M, L"``.
+        """
         shown = ", ".join(map(str, self.labels))
         return f"{self.variable}: order ({self.origin}) {shown}"
 
@@ -122,6 +129,13 @@ class ExcludeStep:
     labels: tuple
 
     def describe(self) -> str:
+        """One line for a list of steps.
+
+        Returns
+        -------
+        str
+            For example ``"size: exclude XL"``.
+        """
         return f"{self.variable}: exclude {', '.join(map(str, self.labels))}"
 
 
@@ -135,6 +149,13 @@ class MergeStep:
     labels: tuple
 
     def describe(self) -> str:
+        """One line for a list of steps, naming only the groups of two or more categories.
+
+        Returns
+        -------
+        str
+            For example ``"size: merge [S, M] -> S–M"``.
+        """
         parts = [
             f"[{', '.join(map(str, g))}] -> {lab}"
             for g, lab in zip(self.groups, self.labels, strict=True)

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from collections.abc import Callable, Hashable
+from typing import TYPE_CHECKING
 
 import ipywidgets as widgets
 
@@ -10,6 +11,9 @@ from rankfold import OrderStep
 
 from . import formatting
 from .state import Edit
+
+if TYPE_CHECKING:
+    from .render import Rendered
 
 __all__ = ["CategoryEditor", "StepsPanel"]
 
@@ -76,7 +80,7 @@ class CategoryEditor:
         self.widget.add_class(f"rankfold-editor-{axis}")
         self.widget.add_class("rankfold-editor")
 
-    def show(self, rendered) -> None:
+    def show(self, rendered: Rendered) -> None:
         """Show this axis's current categories and counts."""
         table = rendered.table
         self._variable = table.row_name if self._axis == "rows" else table.col_name
@@ -158,7 +162,7 @@ class StepsPanel:
         self.widget = widgets.VBox([self._list, widgets.HBox([self._undo, self._reset])])
         self.widget.add_class("rankfold-steps")
 
-    def show(self, rendered) -> None:
+    def show(self, rendered: Rendered) -> None:
         """List the steps the current table went through after it was counted."""
         table = rendered.table
         steps = table.steps[table.initial_steps:]

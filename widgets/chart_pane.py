@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import json
 from collections.abc import Callable, Sequence
+from contextlib import AbstractContextManager
 from typing import Any
 
 import altair as alt
@@ -27,11 +28,16 @@ CLICK = "cell"
 _EMBED_OPTIONS = {"actions": False, "renderer": "svg", "mode": "vega-lite"}
 
 
-def building():
+def building() -> AbstractContextManager[None]:
     """Context for building charts without Altair's check of every part as it is made.
 
     The finished specification is still checked in full once, when the pane serialises it
     (and in the tests); skipping the per-part checks makes a chart several times faster.
+
+    Returns
+    -------
+    contextlib.AbstractContextManager
+        Use as ``with building(): ...``.
     """
     return debug_mode(False)
 

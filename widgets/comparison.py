@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from collections.abc import Callable
+from typing import TYPE_CHECKING
 
 import altair as alt
 import ipywidgets as widgets
@@ -12,6 +13,9 @@ from rankfold import measure_label
 
 from . import formatting
 from .chart_pane import ChartPane, building, inline_data
+
+if TYPE_CHECKING:
+    from .render import Rendered
 
 __all__ = ["comparison_chart", "comparison_html", "ComparisonSection", "COMPARED", "VERSIONS"]
 
@@ -135,7 +139,7 @@ class ComparisonSection:
         self._table.add_class("rankfold-comparison-summary")
         self.widget = widgets.VBox([self._pane.widget, self._table])
 
-    def show(self, rendered) -> None:
+    def show(self, rendered: Rendered) -> None:
         """Display the rendered state."""
         table = rendered.table
         self._pane.show(rendered.chart("comparison"))

@@ -53,7 +53,7 @@ CSS classes (stable, for styling and browser tests)
 from __future__ import annotations
 
 from collections.abc import Callable, Hashable, Mapping, Sequence
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import ipywidgets as widgets
 import pandas as pd
@@ -73,6 +73,9 @@ from .render import Rendered, TableCache, render
 from .state import Edit, ExplorerState
 from .sweep_view import SweepSection
 from .table_mode import BackgroundCount, has_records, offer_for
+
+if TYPE_CHECKING:
+    import altair as alt
 
 __all__ = ["Explorer", "explore", "SECTIONS"]
 
@@ -395,14 +398,42 @@ class Explorer(widgets.VBox):
         """
         return self._rendered.coded_columns()
 
-    def chart(self, name: str):
+    def chart(self, name: str) -> alt.TopLevelMixin | None:
         """The current Altair chart ``'heatmap'``, ``'pairs'`` (None until a cell is chosen) or
-        ``'comparison'``: an ordinary Altair object to restyle or save."""
+        ``'comparison'``: an ordinary Altair object to restyle or save.
+
+        Parameters
+        ----------
+        name : {'heatmap', 'pairs', 'comparison'}
+            Which chart.
+
+        Returns
+        -------
+        altair.TopLevelMixin or None
+            The chart as last drawn, or None for ``'pairs'`` before a cell is chosen.
+        """
         return self._rendered.chart(name)
 
     def save_chart(self, name: str, path: str) -> str:
-        """Save one of the charts (``'heatmap'``, ``'pairs'``, ``'comparison'``) to ``path``;
-        the format follows the suffix (.html, .json, .png, .svg). Returns the path written."""
+        """Save one of the charts (``'heatmap'``, ``'pairs'``, ``'comparison'``) to ``path``.
+
+        Parameters
+        ----------
+        name : {'heatmap', 'pairs', 'comparison'}
+            Which chart.
+        path : str
+            Where to write; the format follows the suffix (.html, .json, .png, .svg).
+
+        Returns
+        -------
+        str
+            The path written.
+
+        Raises
+        ------
+        ValueError
+            For ``'pairs'`` before a cell is chosen.
+        """
         chart = self._rendered.chart(name)
         if chart is None:
             raise ValueError("There is no pair view yet: choose a cell first (set_view).")

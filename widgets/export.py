@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from collections.abc import Callable
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import altair as alt
 import ipywidgets as widgets
@@ -12,6 +13,9 @@ from rankfold import OrdinalTable
 
 from . import formatting
 from .table_mode import has_records
+
+if TYPE_CHECKING:
+    from .render import Rendered
 
 __all__ = ["save_chart", "code_snippet", "ExportSection", "CHART_FORMATS"]
 
@@ -132,7 +136,7 @@ class ExportSection:
         ])
         self.widget.add_class("rankfold-export")
 
-    def show(self, rendered) -> None:
+    def show(self, rendered: Rendered) -> None:
         """Show the code of the current table."""
         self._rendered = rendered
         records = has_records(rendered.source.data)

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Callable, Sequence
+from typing import TYPE_CHECKING
 
 import altair as alt
 import ipywidgets as widgets
@@ -13,6 +14,9 @@ import pandas as pd
 from . import formatting
 from .chart_pane import CLICK, ChartPane, building, inline_data
 from .state import COLOUR_CHOICES
+
+if TYPE_CHECKING:
+    from .render import Rendered
 
 __all__ = ["heatmap_chart", "HeatmapSection", "grid_axes", "TOTAL"]
 
@@ -207,7 +211,7 @@ class HeatmapSection:
         self._rendered = None
         self.widget = widgets.VBox([self._colour, self._pane.widget])
 
-    def show(self, rendered) -> None:
+    def show(self, rendered: Rendered) -> None:
         """Display the rendered state (see :class:`rankfold.widgets.render.Rendered`)."""
         self._rendered = rendered
         self._colour.value = rendered.state.colour_by

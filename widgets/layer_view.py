@@ -12,6 +12,7 @@ from __future__ import annotations
 import math
 import warnings
 from collections.abc import Callable
+from typing import TYPE_CHECKING
 
 import altair as alt
 import ipywidgets as widgets
@@ -23,6 +24,9 @@ from rankfold import OrdinalTable
 from . import formatting
 from .chart_pane import ChartPane
 from .heatmap import CELL_WIDTH, heatmap_chart
+
+if TYPE_CHECKING:
+    from .render import Rendered
 
 __all__ = ["layer_heatmaps", "layer_measures_html", "LayerSection", "LAYER_CAUTIONS"]
 
@@ -180,7 +184,7 @@ class LayerSection:
         self._pane = ChartPane("rankfold-layer-heatmaps", on_click=self._clicked)
         self.widget = widgets.VBox([self._numbers, self._pane.widget])
 
-    def show(self, rendered) -> None:
+    def show(self, rendered: Rendered) -> None:
         """Display the rendered state (see :class:`rankfold.widgets.render.Rendered`)."""
         self._rendered = rendered
         table = rendered.table

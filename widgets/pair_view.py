@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from collections.abc import Callable, Hashable
+from typing import TYPE_CHECKING
 
 import altair as alt
 import ipywidgets as widgets
@@ -14,6 +15,9 @@ from rankfold.pair_regions import REGIONS
 from . import formatting
 from .chart_pane import CLICK, ChartPane, building, inline_data
 from .heatmap import CELL_HEIGHT, CELL_WIDTH, grid_axes
+
+if TYPE_CHECKING:
+    from .render import Rendered
 
 __all__ = ["pair_chart", "pair_table_html", "PairSection"]
 
@@ -155,7 +159,7 @@ class PairSection:
         self._table.add_class("rankfold-pair-summary")
         self.widget = widgets.VBox([self._cell, self._pane.widget, self._table])
 
-    def show(self, rendered) -> None:
+    def show(self, rendered: Rendered) -> None:
         """Display the rendered state."""
         self._rendered = rendered
         table = rendered.table

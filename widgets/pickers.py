@@ -3,11 +3,15 @@
 from __future__ import annotations
 
 from collections.abc import Callable, Hashable, Mapping, Sequence
+from typing import TYPE_CHECKING
 
 import ipywidgets as widgets
 import pandas as pd
 
 from rankfold.counting import MAX_NUMERIC_LEVELS
+
+if TYPE_CHECKING:
+    from .render import Rendered
 
 __all__ = ["orderable_columns", "layer_columns", "weight_columns", "VariablePickers"]
 
@@ -141,7 +145,7 @@ class VariablePickers:
         )
         self.widget.add_class("rankfold-pickers")
 
-    def show(self, rendered) -> None:
+    def show(self, rendered: Rendered) -> None:
         """Show the state's variables."""
         state = rendered.state
         self._row.value = state.row

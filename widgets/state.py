@@ -130,16 +130,39 @@ class ExplorerState:
         """All coding edits taken back."""
         return replace(self, edits=())
 
-    def with_roles(self, **roles) -> ExplorerState:
+    def with_roles(self, **roles: str | None) -> ExplorerState:
         """New ``layer``, ``weight`` or ``weight_kind``; the coding edits and view choices stay
-        (edits recode the row and column variables, which every layer shares)."""
+        (edits recode the row and column variables, which every layer shares).
+
+        Parameters
+        ----------
+        **roles : str or None
+            Any of ``layer``, ``weight`` (column names, None for none) and ``weight_kind``.
+
+        Returns
+        -------
+        ExplorerState
+            A copy with the new roles (states are immutable); a keyword other than these three
+            raises ValueError.
+        """
         unknown = sorted(set(roles) - {"layer", "weight", "weight_kind"})
         if unknown:
             raise ValueError(f"Only layer, weight and weight_kind are roles; got {unknown}.")
         return replace(self, **roles)
 
-    def with_view(self, **choices) -> ExplorerState:
-        """New view choices (``colour_by``, ``chosen_cell``); the data and coding stay."""
+    def with_view(self, **choices: str | tuple[Hashable, Hashable] | None) -> ExplorerState:
+        """New view choices (``colour_by``, ``chosen_cell``); the data and coding stay.
+
+        Parameters
+        ----------
+        **choices : str, (row label, column label) or None
+            ``colour_by`` (one of the colour choices) and ``chosen_cell`` (None for none).
+
+        Returns
+        -------
+        ExplorerState
+            A copy with the new choices; any other keyword raises ValueError.
+        """
         unknown = sorted(set(choices) - {"colour_by", "chosen_cell"})
         if unknown:
             raise ValueError(f"Only colour_by and chosen_cell are view choices; got {unknown}.")

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 from collections.abc import Callable
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import altair as alt
 import ipywidgets as widgets
@@ -35,6 +36,9 @@ from rankfold.steps import merged_label
 from . import formatting
 from .chart_pane import CLICK, ChartPane
 from .state import Edit
+
+if TYPE_CHECKING:
+    from .render import Rendered
 
 __all__ = ["SweepSection", "SweptCodings", "sweep_chart", "swept_codings", "POINT_LIMIT",
            "AUTO_LIMIT"]
@@ -380,7 +384,7 @@ class SweepSection:
         ])
 
     # ------------------------------------------------------------------ showing
-    def show(self, rendered) -> None:
+    def show(self, rendered: Rendered) -> None:
         """Display the rendered state; sweep at once when the sweep is small."""
         self._rendered = rendered
         table, kept = swept_table(rendered.collected, rendered.state.edits)
