@@ -317,16 +317,22 @@ class _Batch:
     """Codings of one collapsed shape: positions in each axis's list and the collapsed tables.
 
     ``cells`` and ``squared`` keep the layers, ``(B, K, I', J')``; ``counts`` pools them.
+    ``observed`` is what sparseness is judged on: records per cell (pooled) when the cells
+    are sums of sampling weights, the counts otherwise.
     """
 
     row_index: np.ndarray
     col_index: np.ndarray
     cells: np.ndarray
     squared: np.ndarray | None
+    records: np.ndarray | None = None
     counts: np.ndarray = field(init=False)
+    observed: np.ndarray = field(init=False)
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "counts", self.cells.sum(axis=1))
+        observed = self.counts if self.records is None else self.records.sum(axis=1)
+        object.__setattr__(self, "observed", observed)
 
 
 def _batches(
@@ -339,6 +345,7 @@ def _batches(
     """Collapsed tables of every coding pair, by shape, at most ``chunk_size`` at a time."""
     prefix = _prefix(table.cells)
     squared = None if table.squared_weights is None else _prefix(table.squared_weights)
+    records = None if squared is None else _prefix(np.asarray(table.records, dtype=float))
     total = len(rows.cuts) * len(cols.cuts)
     done = 0
     for r in np.unique(rows.groups):
@@ -357,6 +364,8 @@ def _batches(
                     cells=_collapse(prefix, row_bounds[ri], col_bounds[ci]),
                     squared=None if squared is None
                     else _collapse(squared, row_bounds[ri], col_bounds[ci]),
+                    records=None if records is None
+                    else _collapse(records, row_bounds[ri], col_bounds[ci]),
                 )
                 done += len(flat)
                 if progress is not None:
@@ -437,7 +446,7 @@ class _Columns:
             estimate = np.where(busy, found[key]["estimate"], np.nan)
             out[key] = estimate
             out[f"{key}_std_error"] = np.where(np.isnan(estimate), np.nan, found[key]["std_error"])
-        figures = _sparse_columns(counts)
+        figures = _sparse_columns(batch.observed)
         for key in ("share_expected_below_5", "min_expected", "zero_cells", "smallest_category"):
             out[key] = figures[key]
         return out
@@ -538,7 +547,8 @@ def sweep(
         named by its key) and ``<key>_std_error``, and the sparse-cell figures
         ``share_expected_below_5``, ``min_expected`` and ``zero_cells`` (over non-empty rows
         and columns, as in :meth:`OrdinalTable.diagnostics`) and ``smallest_category`` (the
-        smallest row or column total). An undefined measure is NaN, with its standard error;
+        smallest row or column total); with sampling weights these count records per cell,
+        not weighted totals. An undefined measure is NaN, with its standard error;
         ``apply_coding(table, ...).measures()`` gives the reason.
 
     Raises
@@ -726,7 +736,7 @@ def rule_met(
     -------
     ndarray of bool
         One entry per coding. Expected counts are over non-empty rows and columns; with
-        weights they are sums of weights.
+        sampling weights they count records (respondents), with frequency weights units.
     """
     threshold = _check_rule(rule, threshold)
     needed = ("share_expected_below_5", "min_expected", "smallest_category")
@@ -824,7 +834,7 @@ def suggest_collapsing(
     rows, cols = _plan(table, axes, min_categories, max_schemes, DEFAULT_CHUNK_SIZE)
     balance, row_index, col_index = [], [], []
     for batch in _batches(table, rows, cols, DEFAULT_CHUNK_SIZE, None):
-        figures = _sparse_columns(batch.counts)
+        figures = _sparse_columns(batch.observed)
         meets = rule_met(figures, rule, threshold)
         balance.append(figures["category_square_sum"][meets])
         row_index.append(batch.row_index[meets])

@@ -92,13 +92,26 @@ class Diagnostics:
         }
 
 
-def diagnose(counts: pd.DataFrame) -> Diagnostics:
+def _expected(n: np.ndarray) -> np.ndarray:
+    """Counts expected under independence, ``n_i+ n_+j / n`` (zeros for an empty table)."""
+    total = n.sum()
+    if total <= 0:
+        return np.zeros_like(n)
+    return np.outer(n.sum(axis=1), n.sum(axis=0)) / total
+
+
+def diagnose(counts: pd.DataFrame, records: pd.DataFrame | None = None) -> Diagnostics:
     """Cell diagnostics of a table of counts with labelled rows and columns.
 
     Parameters
     ----------
     counts : pandas.DataFrame
         The table (as in :attr:`OrdinalTable.counts`).
+    records : pandas.DataFrame, optional
+        Data rows per cell, when ``counts`` holds sums of sampling weights. Sparseness is a
+        matter of how many units were observed, so the sparse-cell figures then come from
+        these; the adjusted residuals use the weighted table rescaled to the number of
+        records (which ignores design effects: a rough guide only).
 
     Returns
     -------
@@ -116,27 +129,42 @@ def diagnose(counts: pd.DataFrame) -> Diagnostics:
     """
     n = counts.to_numpy(dtype=float)
     total = n.sum()
-    rows, cols = n.sum(axis=1), n.sum(axis=0)
+    observed = n if records is None else records.to_numpy(dtype=float)
+    scaled = n if records is None or total <= 0 else n * (observed.sum() / total)
+    expected = _expected(n)
+    scaled_expected = _expected(scaled)
+    rows, cols = scaled.sum(axis=1), scaled.sum(axis=0)
+    scaled_total = scaled.sum()
     with np.errstate(invalid="ignore", divide="ignore"):
-        expected = np.outer(rows, cols) / total if total > 0 else np.zeros_like(n)
-        scale = np.sqrt(expected * np.outer(1 - rows / total, 1 - cols / total))
-        residuals = np.where(scale > 0, (n - expected) / np.where(scale > 0, scale, 1), np.nan)
+        scale = np.sqrt(
+            scaled_expected * np.outer(1 - rows / scaled_total, 1 - cols / scaled_total)
+        )
+        residuals = np.where(
+            scale > 0, (scaled - scaled_expected) / np.where(scale > 0, scale, 1), np.nan
+        )
     conc, disc = cell_concordance(n)
-    keep = np.outer(rows > 0, cols > 0)
-    inner = expected[keep]
+    keep = np.outer(observed.sum(axis=1) > 0, observed.sum(axis=0) > 0)
+    inner = _expected(observed)[keep]
     if inner.size:
         share = float((inner < 5).mean())
         smallest = float(inner.min())
-        zeros = int((n[keep] == 0).sum())
+        zeros = int((observed[keep] == 0).sum())
     else:
         share, smallest, zeros = np.nan, np.nan, 0
+    unit = "count" if records is None else "number of records"
     warnings = []
     if inner.size and (share > 0.2 or smallest < 1):
         warnings.append(
-            f"{share:.0%} of cells have an expected count below 5 and the smallest is "
+            f"{share:.0%} of cells have an expected {unit} below 5 and the smallest is "
             f"{smallest:.2f}: Cochran's rule (none below 1, at most 20% below 5) is not met, so "
             "large-sample p-values and intervals may be unreliable; consider merging sparse "
             "neighbouring categories by a rule fixed in advance, or the permutation test."
+        )
+    if records is not None:
+        warnings.append(
+            "Sampling weights: the sparse-cell figures count records (respondents) per cell; "
+            "the adjusted residuals use the weighted table scaled to the number of records "
+            "and ignore design effects, so read them as a rough guide."
         )
     like = dict(index=counts.index, columns=counts.columns)
     return Diagnostics(

@@ -258,8 +258,16 @@ class OrdinalTable:
         Diagnostics
             Computed by :func:`rankfold.diagnostics.diagnose` on the table pooled over
             layers; :attr:`Diagnostics.sources` names the published source of each figure.
+            With sampling weights the sparse-cell figures count records per cell, not
+            weighted totals.
         """
-        return diagnose(self.counts)
+        if self.weight_kind != "sampling" or self.records is None:
+            return diagnose(self.counts)
+        counts = self.counts
+        records = pd.DataFrame(
+            np.asarray(self.records).sum(axis=0), index=counts.index, columns=counts.columns
+        )
+        return diagnose(counts, records=records)
 
     # ---------------------------------------------------------------------------- layers
     @property

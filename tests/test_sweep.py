@@ -426,3 +426,22 @@ def test_range_sentence_states_the_extremes_and_the_caution():
     assert f"gamma runs from {frame['gamma'].min():.3f} to {frame['gamma'].max():.3f}" in sentence
     assert f"tau-b runs from {frame['tau_b'].min():.3f} to {frame['tau_b'].max():.3f}" in sentence
     assert "inflates false findings" in sentence
+
+
+def test_sampling_weights_judge_sparseness_by_records():
+    # Population-scale survey weights must not make sparse codings look well filled: the rule
+    # counts records. Reference: the same records without weights (constant weights change no
+    # proportion), whose sweep and suggestion the weighted ones must match exactly.
+    rng = np.random.default_rng(11)
+    frame = pd.DataFrame({"a": rng.integers(0, 4, size=80), "b": rng.integers(0, 4, size=80)})
+    plain = rankfold.table(frame, "a", "b")
+    survey = rankfold.table(frame.assign(w=500.0), "a", "b", weight="w", weight_kind="sampling")
+    columns = ["share_expected_below_5", "min_expected", "zero_cells", "smallest_category"]
+    swept_plain, swept_survey = rankfold.sweep(plain), rankfold.sweep(survey)
+    np.testing.assert_allclose(swept_survey[columns].to_numpy(dtype=float),
+                               swept_plain[columns].to_numpy(dtype=float), rtol=1e-12)
+    assert swept_plain["min_expected"].min() < 5  # so the check has something to catch
+    chosen_plain = rankfold.suggest_collapsing(plain)
+    chosen_survey = rankfold.suggest_collapsing(survey)
+    assert (chosen_survey.row_cuts, chosen_survey.col_cuts) == (
+        chosen_plain.row_cuts, chosen_plain.col_cuts)

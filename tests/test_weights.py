@@ -188,3 +188,29 @@ def test_dataframe_is_untouched(survey):
     t.merge("cols", [[1, 2]]).partial_measures()
     pd.testing.assert_frame_equal(frame, before)
     assert list(frame.columns) == list(before.columns)
+
+
+def test_sampling_weight_diagnostics_count_respondents_not_weighted_totals():
+    # Sparseness is about how many units were observed (Cochran 1954 states the rule for counts),
+    # so population-scale survey weights must not hide sparse cells. Reference: the same records
+    # without weights (constant weights leave every proportion unchanged), and pandas.crosstab
+    # for the records per cell.
+    rng = np.random.default_rng(7)
+    frame = pd.DataFrame({
+        "a": rng.integers(0, 4, size=60),
+        "b": rng.integers(0, 3, size=60),
+    })
+    weighted = frame.assign(w=1000.0)
+    plain = rankfold.table(frame, "a", "b").diagnostics()
+    survey = rankfold.table(weighted, "a", "b", weight="w", weight_kind="sampling").diagnostics()
+    records = pd.crosstab(frame["a"], frame["b"]).to_numpy()
+    expected = np.outer(records.sum(axis=1), records.sum(axis=0)) / records.sum()
+    assert survey.min_expected == pytest.approx(expected.min(), rel=1e-12, abs=0)
+    assert survey.share_expected_below_5 == pytest.approx((expected < 5).mean(), rel=1e-12, abs=0)
+    assert survey.min_expected < 5  # weighted totals (x1000) would have hidden this
+    np.testing.assert_allclose(
+        survey.adjusted_residuals.to_numpy(), plain.adjusted_residuals.to_numpy(), rtol=1e-10
+    )
+    assert any("count records" in w for w in survey.warnings)
+    # the expected counts reported stay on the scale of the weighted table
+    np.testing.assert_allclose(survey.expected.to_numpy(), plain.expected.to_numpy() * 1000)

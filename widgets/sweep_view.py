@@ -335,8 +335,8 @@ def summary_html(swept: SweptCodings, current: tuple[int, int] | None) -> str:
         notes.append("Measures and the rule use the table pooled over layers; partial gamma "
                      "holds the layers fixed.")
     if table.weight_kind == "sampling":
-        notes.append("With sampling weights the rule reads weighted totals, which are not "
-                     "counts of respondents.")
+        notes.append("With sampling weights the rule counts respondents (records) per cell, "
+                     "not weighted totals.")
     lines += [f'<p class="rankfold-hint">{formatting.text(n)}</p>' for n in notes]
     lines.append('<p class="rankfold-hint">Click a coding to apply it as merge steps.</p>'
                  if len(frame) <= POINT_LIMIT else
