@@ -373,15 +373,10 @@ def _batches(
 
 
 def _sparse_columns(counts: np.ndarray) -> dict[str, np.ndarray]:
-    """Sparse-cell figures of a batch, over its non-empty rows and columns (as in diagnose)."""
+    """Sparse-cell figures of a batch (as in diagnose), with the category sizes the rules use."""
     n = counts.astype(float)
     rows, cols = n.sum(axis=-1), n.sum(axis=-2)
-    total = rows.sum(axis=-1)
-    inside = (rows[:, :, None] > 0) & (cols[:, None, :] > 0)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        expected = rows[:, :, None] * cols[:, None, :] / total[:, None, None]
-    figures = sparse_cell_figures(np.where(inside, expected, np.nan))
-    figures["zero_cells"] = ((n == 0) & inside).sum(axis=(-2, -1))
+    figures = sparse_cell_figures(n)
     figures["smallest_category"] = np.minimum(rows.min(axis=-1), cols.min(axis=-1))
     figures["category_square_sum"] = (rows**2).sum(axis=-1) + (cols**2).sum(axis=-1)
     return figures

@@ -12,40 +12,45 @@ from .concordance import cell_concordance
 __all__ = ["Diagnostics", "diagnose", "sparse_cell_figures"]
 
 
-def sparse_cell_figures(expected: np.ndarray) -> dict[str, np.ndarray]:
-    """Share of cells with expected count below 5 and the smallest expected count.
+def sparse_cell_figures(counts: np.ndarray) -> dict[str, np.ndarray]:
+    """Sparse-cell figures of a table (or a batch of tables) of counts.
 
     Parameters
     ----------
-    expected : ndarray, shape (..., I, J)
-        Expected counts under independence; a batch is allowed. NaN marks a cell to leave
-        out (e.g. in an empty row or column, as :func:`diagnose` does).
+    counts : ndarray, shape (..., I, J)
+        Cell counts; leading axes are a batch.
 
     Returns
     -------
     dict
-        ``share_expected_below_5`` and ``min_expected`` over the cells that are not NaN, each
-        of the batch shape (NaN when no cell is left).
+        ``share_expected_below_5`` and ``min_expected`` (over the expected counts
+        ``n_i+ n_+j / n`` of the cells in non-empty rows and columns) and ``zero_cells`` (cells
+        there with no units), each of the batch shape; NaN, NaN and 0 when no cell is left.
 
     Notes
     -----
     These are the inputs of Cochran's rule for the chi-square approximation: no expected count
-    below 1 and at most 20% below 5 (Cochran 1954, Biometrics 10:417-451).
+    below 1 and at most 20% below 5 (Cochran 1954, Biometrics 10:417-451). Empty rows and
+    columns carry no information, so they are left out (common practice).
 
     References
     ----------
     Cochran, W. G. (1954). Some methods for strengthening the common chi-square tests.
     Biometrics 10, 417-451.
     """
-    expected = np.asarray(expected, dtype=float)
-    present = ~np.isnan(expected)
-    cells = present.sum(axis=(-2, -1))
+    n = np.asarray(counts, dtype=float)
+    rows, cols = n.sum(axis=-1), n.sum(axis=-2)
+    total = rows.sum(axis=-1)
+    inside = (rows[..., :, None] > 0) & (cols[..., None, :] > 0)
     with np.errstate(invalid="ignore", divide="ignore"):
-        share = (expected < 5).sum(axis=(-2, -1)) / cells
-    smallest = np.where(present, expected, np.inf).min(axis=(-2, -1))
+        expected = rows[..., :, None] * cols[..., None, :] / total[..., None, None]
+        cells = inside.sum(axis=(-2, -1))
+        share = ((expected < 5) & inside).sum(axis=(-2, -1)) / cells
+    smallest = np.where(inside, expected, np.inf).min(axis=(-2, -1))
     return {
         "share_expected_below_5": share,
         "min_expected": np.where(cells > 0, smallest, np.nan),
+        "zero_cells": ((n == 0) & inside).sum(axis=(-2, -1)),
     }
 
 
@@ -143,17 +148,12 @@ def diagnose(counts: pd.DataFrame, records: pd.DataFrame | None = None) -> Diagn
             scale > 0, (scaled - scaled_expected) / np.where(scale > 0, scale, 1), np.nan
         )
     conc, disc = cell_concordance(n)
-    keep = np.outer(observed.sum(axis=1) > 0, observed.sum(axis=0) > 0)
-    inner = _expected(observed)[keep]
-    if inner.size:
-        share = float((inner < 5).mean())
-        smallest = float(inner.min())
-        zeros = int((observed[keep] == 0).sum())
-    else:
-        share, smallest, zeros = np.nan, np.nan, 0
+    sparse = sparse_cell_figures(observed)
+    share, smallest = float(sparse["share_expected_below_5"]), float(sparse["min_expected"])
+    zeros = int(sparse["zero_cells"])
     unit = "count" if records is None else "number of records"
     warnings = []
-    if inner.size and (share > 0.2 or smallest < 1):
+    if share > 0.2 or smallest < 1:  # False when no cell is left (NaN)
         warnings.append(
             f"{share:.0%} of cells have an expected {unit} below 5 and the smallest is "
             f"{smallest:.2f}: Cochran's rule (none below 1, at most 20% below 5) is not met, so "
