@@ -15,14 +15,14 @@ from .collapsing import apply_coding, suggest_collapsing, sweep, sweep_chunks
 from .concordance import cell_concordance, pair_counts
 from .counting import table, table_from_counts
 from .diagnostics import Diagnostics
-from .independence import PermutationResult
+from .independence import PermutationResult, independence_label
 from .measure_comparison import compare_measures
 from .measure_table import measure_label
 from .ordinal_table import OrdinalTable
 from .pair_regions import PairRegions, pair_regions
 from .steps import ExcludeStep, MergeStep, OrderStep, apply_steps
 
-__version__ = "0.1.0"
+__version__ = "0.2.0"
 
 __all__ = [
     "Diagnostics",
@@ -39,6 +39,7 @@ __all__ = [
     "compare_measures",
     "demo",
     "explore",
+    "independence_label",
     "measure_label",
     "pair_counts",
     "pair_regions",

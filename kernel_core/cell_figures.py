@@ -19,7 +19,7 @@ def cell_figures(table: OrdinalTable) -> pd.DataFrame:
     Parameters
     ----------
     table : OrdinalTable
-        The table (pooled over layers).
+        The table (pooled over the levels of the control variable).
 
     Returns
     -------

@@ -20,8 +20,8 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
+from .control_variable import partial_gamma_arrays
 from .diagnostics import sparse_cell_figures
-from .layers import partial_gamma_arrays
 from .measure_table import measure_label
 from .ordinal_measures import ORDINAL_MEASURES, Sampling, ordinal_measure_arrays
 from .ordinal_table import OrdinalTable
@@ -295,7 +295,7 @@ def _plan(
 
 
 def _collapse(prefix: np.ndarray, row_bounds: np.ndarray, col_bounds: np.ndarray) -> np.ndarray:
-    """Collapsed tables ``(B, K, I', J')`` from the prefix sums ``(K, I + 1, J + 1)`` of K layers.
+    """Collapsed tables ``(B, K, I', J')`` from the prefix sums ``(K, I + 1, J + 1)`` of K levels.
 
     Cell ``(a, b)`` of a collapsed table is
     ``S[r_(a+1), c_(b+1)] - S[r_a, c_(b+1)] - S[r_(a+1), c_b] + S[r_a, c_b]`` with ``S`` the
@@ -316,7 +316,7 @@ def _prefix(cells: np.ndarray) -> np.ndarray:
 class _Batch:
     """Codings of one collapsed shape: positions in each axis's list and the collapsed tables.
 
-    ``cells`` and ``squared`` keep the layers, ``(B, K, I', J')``; ``counts`` pools them.
+    ``cells`` and ``squared`` keep the levels, ``(B, K, I', J')``; ``counts`` pools them.
     ``observed`` is what sparseness is judged on: records per cell (pooled) when the cells
     are sums of sampling weights, the counts otherwise.
     """
@@ -387,12 +387,16 @@ def _check_measures(table: OrdinalTable, measures: Sequence[str]) -> tuple[str, 
     if isinstance(measures, str):
         measures = (measures,)
     measures = tuple(measures)
-    known = (*ORDINAL_MEASURES, PARTIAL) if table.layer_name is not None else ORDINAL_MEASURES
+    known = (*ORDINAL_MEASURES, PARTIAL) if table.control_name is not None else ORDINAL_MEASURES
     unknown = [m for m in measures if m not in known]
     if unknown or not measures or len(set(measures)) != len(measures):
-        layered = "" if table.layer_name is not None else f" ({PARTIAL!r} needs a layered table)"
+        controlled = (
+            "" if table.control_name is not None
+            else f" ({PARTIAL!r} needs a table with a control variable)"
+        )
         raise ValueError(
-            f"measures must list distinct keys from {list(known)}{layered}; got {list(measures)}."
+            f"measures must list distinct keys from {list(known)}{controlled}; "
+            f"got {list(measures)}."
         )
     return measures
 
@@ -413,10 +417,10 @@ class _Columns:
             for axis, labels, codings in (("row", table.row_labels, rows),
                                           ("col", table.col_labels, cols))
         }
-        layers = len(table.layer_labels)
-        self.layer_records = (
+        levels = len(table.control_labels)
+        self.level_records = (
             None if table.records is None
-            else np.asarray(table.records, dtype=float).reshape(layers, -1).sum(axis=-1)
+            else np.asarray(table.records, dtype=float).reshape(levels, -1).sum(axis=-1)
         )
 
     def arrays(self, batch: _Batch) -> dict[str, np.ndarray]:
@@ -425,14 +429,14 @@ class _Columns:
             "col_index": batch.col_index,
         }
         if batch.squared is None:
-            pooled = layered = Sampling()
+            pooled = controlled = Sampling()
         else:
-            pooled = Sampling(batch.squared.sum(axis=1), self.layer_records.sum())
-            layered = Sampling(batch.squared, self.layer_records)
+            pooled = Sampling(batch.squared.sum(axis=1), self.level_records.sum())
+            controlled = Sampling(batch.squared, self.level_records)
         counts = batch.counts
         found = ordinal_measure_arrays(counts, pooled)
         if PARTIAL in self.measures:
-            found[PARTIAL] = partial_gamma_arrays(batch.cells, layered)
+            found[PARTIAL] = partial_gamma_arrays(batch.cells, controlled)
         # As in measures(): with one non-empty category on either variable, every measure is
         # undefined (P - Q is 0 by construction, not by the data).
         busy = np.minimum((counts.sum(axis=-1) > 0).sum(axis=-1),
@@ -514,16 +518,17 @@ def sweep(
     Parameters
     ----------
     table : OrdinalTable
-        The table to recode (never modified). A layered table is pooled over its layers, as
+        The table to recode (never modified). A table with a control variable is pooled over
+        its levels, as
         in :meth:`OrdinalTable.measures`.
     axes : {'both', 'rows', 'cols'}
         Which variables to recode; the other keeps its categories as they are.
     min_categories : int
         Fewest categories a recoded axis may keep (at least 2).
     measures : sequence of str
-        Keys from :data:`rankfold.ordinal_measures.ORDINAL_MEASURES` and, for a layered
-        table, ``"partial_gamma"`` (within-layer pairs pooled, Davis 1967, JASA 62:189; see
-        :func:`rankfold.layers.partial_gamma_arrays`).
+        Keys from :data:`rankfold.ordinal_measures.ORDINAL_MEASURES` and, for a controlled
+        table, ``"partial_gamma"`` (within-level pairs pooled, Davis 1967, JASA 62:189; see
+        :func:`rankfold.control_variable.partial_gamma_arrays`).
     max_schemes : int or None
         Refuse (with a ValueError saying what to do instead) when there are more codings than
         this; None for no limit. The default admits a full 10 x 10 sweep (261,121 codings).
@@ -799,7 +804,8 @@ def suggest_collapsing(
     Parameters
     ----------
     table : OrdinalTable
-        The table to recode (never modified); a layered table is judged on its pooled table.
+        The table to recode (never modified); a table with a control variable is judged on its
+        pooled table.
     rule : {'cochran', 'min_expected', 'min_category_size'}
         See :func:`rule_met`; the default is Cochran's rule.
     threshold : float, optional

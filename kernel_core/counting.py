@@ -82,13 +82,13 @@ def code_column(
     name : str
         Its name, for messages and steps.
     axis : str
-        ``"rows"``, ``"cols"`` or ``"layers"``.
+        ``"rows"``, ``"cols"`` or ``"control"``.
     order, exclude : sequence of labels, optional
         As in :func:`table`.
     dropna : bool
         Drop missing values (True) or keep them as a last category labelled ``"(missing)"``.
     nominal : bool
-        A layer variable needs no order: labels then follow the categorical order, numeric
+        A control variable needs no order: labels then follow the categorical order, numeric
         order, or sorted text.
 
     Returns
@@ -171,9 +171,38 @@ def code_column(
     return CodedColumn(new_codes, tuple(labels), n_missing, n_excluded, tuple(steps))
 
 
+#: Keywords renamed in 0.2.0, with their new names.
+RENAMED_KEYWORDS = {"layer": "control"}
+
+
+def refuse_unknown_keywords(function: str, given: Mapping[str, Any]) -> None:
+    """Raise the TypeError Python would for unknown keywords, naming the new name of renamed ones.
+
+    Parameters
+    ----------
+    function : str
+        The function's name, for the message.
+    given : mapping
+        The keywords a ``**unknown`` parameter collected.
+
+    Raises
+    ------
+    TypeError
+        For the first keyword given, e.g. ``layer=`` (renamed ``control=`` in 0.2.0).
+    """
+    for name in given:
+        if name in RENAMED_KEYWORDS:
+            new = RENAMED_KEYWORDS[name]
+            raise TypeError(
+                f"{function}() has no {name}= argument since rankfold 0.2.0: use {new}= instead, "
+                f"e.g. {function}(df, 'income_band', 'satisfaction', {new}='region')."
+            )
+        raise TypeError(f"{function}() got an unexpected keyword argument {name!r}")
+
+
 def check_columns(available: Sequence[Hashable], columns: Sequence[str | None]) -> None:
     """Raise unless every named role is one available column and no column has two roles;
-    ``columns`` are the row, column, layer and weight columns, in that order (None: unused)."""
+    ``columns`` are the row, column, control and weight columns, in that order (None: unused)."""
     named = [c for c in columns if c is not None]
     if not all(isinstance(c, Hashable) for c in named):
         raise ValueError(f"Name each column by a single label, such as 'age'; got {named}.")
@@ -181,7 +210,7 @@ def check_columns(available: Sequence[Hashable], columns: Sequence[str | None]) 
     if absent:
         raise ValueError(f"Column(s) {absent} not in the data; its columns are {list(available)}.")
     if len(set(named)) != len(named):
-        roles = [r for r, c in zip(("row", "column", "layer", "weight"), columns, strict=True)
+        roles = [r for r, c in zip(("row", "column", "control", "weight"), columns, strict=True)
                  if c is not None]
         twice = next(c for c in named if named.count(c) > 1)
         both = [r for r, c in zip(roles, named, strict=True) if c == twice]
@@ -266,12 +295,13 @@ def table(
     row: str,
     col: str,
     *,
-    layer: str | None = None,
+    control: str | None = None,
     weight: str | None = None,
     weight_kind: str = "frequency",
     order: Mapping[str, Sequence[Hashable]] | None = None,
     exclude: Mapping[str, Sequence[Hashable]] | None = None,
     dropna: bool = True,
+    **unknown: Any,
 ) -> OrdinalTable:
     """Cross-tabulate two ordered variables of a DataFrame, a Dask or polars frame, or files.
 
@@ -286,7 +316,7 @@ def table(
         same for every source; they are checked against the column types before counting.
     row, col : str
         Names of the row and column variables.
-    layer : str, optional
+    control : str, optional
         A third variable to hold fixed: one table per category (may be nominal).
     weight : str, optional
         A column of non-negative weights (their total between 1e-40 and 1e40, or 0).
@@ -294,8 +324,8 @@ def table(
         ``"frequency"``: each record stands for ``w`` identical units (results equal those on
         the expanded records). ``"sampling"``: survey weights; estimates use the weighted
         table and standard errors are Taylor-linearised, treating the records as a
-        with-replacement single-stage sample (Woodruff 1971, JASA 66:411); with ``layer``,
-        each layer's records as a sample of their own. Not covered: cluster sampling and
+        with-replacement single-stage sample (Woodruff 1971, JASA 66:411); with ``control``,
+        each level's records as a sample of their own. Not covered: cluster sampling and
         design strata (a later ``cluster=`` argument is planned); where the design has them
         the standard errors are usually too small. Count-based tests (chi-square, CMH,
         permutation) are not available with sampling weights.
@@ -327,6 +357,7 @@ def table(
     >>> t.counts.to_numpy().tolist()
     [[1, 1, 0], [0, 1, 1], [0, 0, 1]]
     """
+    refuse_unknown_keywords("table", unknown)
     if weight_kind not in ("frequency", "sampling"):
         raise ValueError(f"weight_kind must be 'frequency' or 'sampling'; got {weight_kind!r}.")
     if weight_kind == "sampling" and weight is None:
@@ -340,18 +371,18 @@ def table(
                 f"{what}= must be a dict {{column: [labels]}}, e.g. {what}={{{row!r}: [...]}}; "
                 f"got {given!r}."
             )
-        stray = [k for k in (given or {}) if k not in (row, col, layer)]
+        stray = [k for k in (given or {}) if k not in (row, col, control)]
         if stray:
-            raise ValueError(f"{what}= names {stray}, which are not among row, col or layer.")
+            raise ValueError(f"{what}= names {stray}, which are not among row, col or control.")
         options[what] = {k: label_list(v, f"{what}[{k!r}]") for k, v in (given or {}).items()}
     order, exclude = options["order"], options["exclude"]
     source, tally = data, None
     if isinstance(data, pd.DataFrame):
-        check_columns(data.columns, [row, col, layer, weight])
+        check_columns(data.columns, [row, col, control, weight])
     else:
         from .sources import tally_source  # the engines are optional: imported on demand
 
-        data, tally = tally_source(data, row, col, layer=layer, weight=weight, order=order)
+        data, tally = tally_source(data, row, col, control=control, weight=weight, order=order)
     coded = {
         role: code_column(
             data[name],
@@ -360,28 +391,28 @@ def table(
             order.get(name),
             exclude.get(name),
             dropna,
-            nominal=(role == "layer"),
+            nominal=(role == "control"),
         )
         for role, name, axis in (
             ("row", row, "rows"),
             ("col", col, "cols"),
-            ("layer", layer, "layers"),
+            ("control", control, "control"),
         )
         if name is not None
     }
     r, c = coded["row"], coded["col"]
     n_i, n_j = len(r.labels), len(c.labels)
-    n_k = len(coded["layer"].labels) if layer is not None else 1
+    n_k = len(coded["control"].labels) if control is not None else 1
     if n_k == 0:
         raise ValueError(
-            f"The layer column {layer!r} has no category left to hold fixed: every value is "
-            "missing or excluded. Leave out layer=, or keep missing values with dropna=False."
+            f"The control variable {control!r} has no category left to hold fixed: every value is "
+            "missing or excluded. Leave out control=, or keep missing values with dropna=False."
         )
     size = n_k * n_i * n_j
     cell_type = np.min_scalar_type(-size - 1)  # the narrowest signed type holding every cell
     flat = np.multiply(r.codes, n_j, dtype=cell_type) + c.codes
-    if layer is not None:
-        flat += np.multiply(coded["layer"].codes, n_i * n_j, dtype=cell_type)
+    if control is not None:
+        flat += np.multiply(coded["control"].codes, n_i * n_j, dtype=cell_type)
     keep = None  # records kept, when some are dropped (a code of -1 in any role)
     if any(role.n_missing or role.n_excluded for role in coded.values()):
         keep = np.logical_and.reduce([role.codes >= 0 for role in coded.values()])
@@ -409,7 +440,7 @@ def table(
     if keep is not None:  # some records were dropped: count why
         missing_any = np.zeros(len(data), dtype=bool)
         excluded_any = np.zeros(len(data), dtype=bool)
-        for coded_col, name in ((r, row), (c, col), (coded.get("layer"), layer)):
+        for coded_col, name in ((r, row), (c, col), (coded.get("control"), control)):
             if coded_col is None:
                 continue
             raw_missing = data[name].isna().to_numpy() if dropna else np.zeros(len(data), bool)
@@ -417,13 +448,13 @@ def table(
             excluded_any |= (coded_col.codes < 0) & ~raw_missing
         n_missing = _rows_where(missing_any & ~keep, tally)
         n_excluded = _rows_where(excluded_any & ~missing_any, tally)
-    steps = r.steps + c.steps + (coded["layer"].steps if layer is not None else ())
+    steps = r.steps + c.steps + (coded["control"].steps if control is not None else ())
     origin = Origin(
         "frame",
         {
             "row": row,
             "col": col,
-            "layer": layer,
+            "control": control,
             "weight": weight,
             "weight_kind": weight_kind,
             "order": order,
@@ -441,8 +472,8 @@ def table(
         steps=steps,
         n_missing=n_missing,
         n_excluded=n_excluded,
-        layer_name=layer,
-        layer_labels=coded["layer"].labels if layer is not None else (None,),
+        control_name=control,
+        control_labels=coded["control"].labels if control is not None else (None,),
         weight=weight,
         weight_kind=weight_kind if weight is not None else None,
         squared_weights=squared,

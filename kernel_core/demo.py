@@ -27,7 +27,7 @@ _NOTE = (
 
 # Share of riders in each age band, and how strongly a longer trip lowers the rating there
 # (negative: longer trips, worse ratings). The effect fades with age and turns slightly positive
-# for the oldest riders, so the pooled table hides differences between layers.
+# for the oldest riders, so the pooled table hides differences between levels.
 _AGE_SHARES = np.array([0.22, 0.36, 0.28, 0.14])
 _TRIP_EFFECT = np.array([-0.35, -0.55, -0.25, 0.10])
 # Survey design: older riders were reached less often, so their weights are larger.
@@ -68,7 +68,7 @@ def transit_survey(n: int = 1200, seed: int = 7) -> pd.DataFrame:
             declared order, as a careless import would leave it, so it must be excluded
             before reading any ordinal measure; it is more common among long trips.
         ``age_band``
-            Ordered Categorical of four bands, a natural layer: the association between trip
+            Ordered Categorical of four bands, a natural level: the association between trip
             length and rating is clearly negative for riders aged 25-39 and slightly positive
             for riders aged 60+.
         ``trips_per_week``
@@ -159,7 +159,7 @@ def clinic_waits(n: int = 900, seed: int = 11) -> pd.DataFrame:
     Returns
     -------
     pandas.DataFrame
-        A new frame with columns ``clinic`` (unordered Categorical: a layer),
+        A new frame with columns ``clinic`` (unordered Categorical: a level),
         ``wait`` (ordered Categorical of four bands), ``satisfaction`` (ordered Categorical
         of five answers) and ``visit_weight`` (sampling weight: each clinic was sampled
         equally, but they see 50%, 30% and 20% of all visits, so the weights restore those

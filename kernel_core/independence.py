@@ -1,5 +1,5 @@
-"""Tests of independence for one table: chi-square, likelihood ratio, linear-by-linear,
-permutation."""
+"""Tests of independence for one table: Pearson X², likelihood-ratio G², linear trend M²
+(Agresti, Categorical Data Analysis, 3rd ed., 2013, sec. 3.2 and 3.4), and a permutation test."""
 
 from __future__ import annotations
 
@@ -12,9 +12,40 @@ from scipy import special, stats
 
 from .ordinal_measures import Sampling
 
-__all__ = ["tests_frame", "PermutationResult", "permutation_test", "midrank_scores"]
+__all__ = [
+    "tests_frame", "PermutationResult", "permutation_test", "midrank_scores", "independence_label",
+]
 
-TEST_KEYS = ("pearson_chi_square", "likelihood_ratio", "linear_by_linear")
+TEST_KEYS = ("pearson_x2", "likelihood_ratio_g2", "trend_m2")
+
+#: Readable names of the tests, in the notation of Agresti, Categorical Data Analysis (3rd ed.,
+#: 2013, sec. 3.2 and 3.4); M^2 is Mantel's (1963) test of linear trend.
+TEST_LABELS = {
+    "pearson_x2": "Pearson X²",
+    "likelihood_ratio_g2": "likelihood-ratio G²",
+    "trend_m2": "linear trend M² = (n − 1) r²",
+    "cmh_correlation": "Cochran–Mantel–Haenszel correlation",
+    "gamma_homogeneity": "same gamma in every level",
+}
+
+
+def independence_label(key: str) -> str:
+    """The readable name of a test of :meth:`OrdinalTable.tests` from its index key.
+
+    Parameters
+    ----------
+    key : str
+        An index key of :meth:`rankfold.OrdinalTable.tests`.
+
+    Returns
+    -------
+    str
+        E.g. ``"Pearson X²"`` for ``"pearson_x2"`` (notation of Agresti, Categorical Data
+        Analysis, 3rd ed., 2013, sec. 3.2).
+    """
+    if key not in TEST_LABELS:
+        raise ValueError(f"Unknown test key {key!r}; the keys are {list(TEST_LABELS)}.")
+    return TEST_LABELS[key]
 
 
 def midrank_scores(margin: np.ndarray) -> np.ndarray:
@@ -33,7 +64,7 @@ def midrank_scores(margin: np.ndarray) -> np.ndarray:
     Notes
     -----
     ``s_k = sum_{l<k} n_l + (n_k + 1) / 2``: tied units share the average of their ranks
-    (common practice; with these scores the linear-by-linear r is Spearman's rho, Agresti
+    (common practice; with these scores the linear-trend r is Spearman's rho, Agresti
     2010, sec. 2.2.3).
     """
     margin = np.asarray(margin, dtype=float)
@@ -73,14 +104,14 @@ def tests_frame(
     scores: str | Sequence[Sequence[float]] | None = None,
     sampling: Sampling | None = None,
 ) -> pd.DataFrame:
-    """Pearson chi-square, likelihood-ratio and linear-by-linear tests of independence.
+    """Pearson X², likelihood-ratio G² and linear trend M² tests of independence.
 
     Parameters
     ----------
     counts : ndarray, shape (I, J)
         Cell counts.
     scores : {'positions', 'midranks'} or (row_scores, col_scores), optional
-        Category scores of the linear-by-linear test; integer positions 1, 2, ... by default.
+        Category scores of the linear trend test; integer positions 1, 2, ... by default.
     sampling : Sampling, optional
         With sampling weights the totals are not counts, so these count-based tests would be
         wrong (a weight of 2 doubles every statistic); they are then NaN with that reason.
@@ -88,7 +119,7 @@ def tests_frame(
     Returns
     -------
     pandas.DataFrame
-        Indexed by ``pearson_chi_square``, ``likelihood_ratio``, ``linear_by_linear`` with
+        Indexed by ``pearson_x2``, ``likelihood_ratio_g2``, ``trend_m2`` with
         columns ``statistic, df, p_value, note``.
 
     Notes
@@ -134,8 +165,8 @@ def tests_frame(
         else ""
     )
     note = "; ".join(x for x in (empty_note, sparse_note) if x)
-    out["pearson_chi_square"] = (x2, df, float(special.chdtrc(df, x2)), note)
-    out["likelihood_ratio"] = (g2, df, float(special.chdtrc(df, g2)), note)
+    out["pearson_x2"] = (x2, df, float(special.chdtrc(df, x2)), note)
+    out["likelihood_ratio_g2"] = (g2, df, float(special.chdtrc(df, g2)), note)
 
     u = row_scores - (rows_all * row_scores).sum() / n.sum()
     v = col_scores - (cols_all * col_scores).sum() / n.sum()
@@ -145,9 +176,9 @@ def tests_frame(
     if s_uu > 0 and s_vv > 0:
         r = s_uv / np.sqrt(s_uu * s_vv)
         m2 = (n.sum() - 1) * r**2
-        out["linear_by_linear"] = (float(m2), 1, float(special.chdtrc(1, m2)), "")
+        out["trend_m2"] = (float(m2), 1, float(special.chdtrc(1, m2)), "")
     else:
-        out["linear_by_linear"] = (np.nan, np.nan, np.nan, "the scores do not vary")
+        out["trend_m2"] = (np.nan, np.nan, np.nan, "the scores do not vary")
     return _frame(out)
 
 

@@ -43,7 +43,7 @@ def measure_label(key: str, row_name: str, col_name: str) -> str:
     """
     labels = {
         "gamma": "Goodman–Kruskal gamma",
-        "partial_gamma": "partial gamma (layers held fixed)",
+        "partial_gamma": "partial gamma (levels held fixed)",
         "somers_d_col_given_row": f"Somers' d ({col_name} | {row_name})",
         "somers_d_row_given_col": f"Somers' d ({row_name} | {col_name})",
         "somers_d_symmetric": "Somers' d (symmetric)",
@@ -167,7 +167,7 @@ def measures_frame(
     else:
         v = _cramers_v(counts, sampling)
         chi_square_p = v["p_value"]
-        v_note = "nominal measure; p-value from Pearson's chi-square test"
+        v_note = "nominal measure; p-value from Pearson's X² test"
         if sampling.squared is not None:
             v_note = "nominal measure; no p-value with sampling weights"
         if not v["estimate"] > 0:
@@ -273,7 +273,7 @@ def inference_frame(
         Where True, the standard errors refer to ``log(estimate)`` (ratios) and the interval
         is ``exp(log(estimate) +/- crit * std_error)``.
     p_values : sequence of float or None, optional
-        A p-value from another test where not None (Cramér's V uses Pearson's chi-square);
+        A p-value from another test where not None (Cramér's V uses Pearson's X²);
         otherwise the two-sided normal p-value of ``z = estimate / std_error_null``.
 
     Returns

@@ -140,7 +140,7 @@ def ordinal_measure_arrays(
     The null standard error of the first five is ``2/den * sqrt(sum n d^2 - (P - Q)^2 / n)``,
     i.e. the same variance rule applied to the gradient ``2 d_ij / den`` of the numerator
     alone (Brown & Benedetti 1977, JASA 72:309). For Spearman's rho it is ``1/sqrt(n - 1)``,
-    the exact permutation standard deviation of a correlation (the linear-by-linear test with
+    the exact permutation standard deviation of a correlation (the linear trend test M² with
     midrank scores, Agresti 2010, sec. 2.2); with survey weights ``n`` is Kish's effective size.
 
     These formulas reproduce the published ones: for gamma, for instance,

@@ -10,9 +10,15 @@ import numpy as np
 import pandas as pd
 
 from .concordance import pair_counts
+from .control_variable import (
+    control_counts,
+    control_measures,
+    control_tests,
+    partial_measures,
+    single_level,
+)
 from .diagnostics import Diagnostics, diagnose
 from .independence import PermutationResult, permutation_test, tests_frame
-from .layers import layer_counts, layer_measures, layer_tests, partial_measures, single_layer
 from .measure_table import measures_frame
 from .ordinal_measures import Sampling
 from .steps import ExcludeStep, MergeStep, OrderStep, Step, default_merge_label, label_list
@@ -60,7 +66,7 @@ class Origin:
 
 @dataclass(frozen=True, eq=False)
 class OrdinalTable:
-    """An ordered two-way table of counts (optionally one per layer), immutable.
+    """An ordered two-way table of counts (optionally one per level), immutable.
 
     Build one with :func:`rankfold.table` or :func:`rankfold.table_from_counts`; every coding
     operation (:meth:`merge`, :meth:`exclude`, :meth:`reorder`) returns a new table and
@@ -77,8 +83,8 @@ class OrdinalTable:
     n_missing, n_excluded : int
         Data rows dropped while counting because a value was missing, or in an excluded
         category (0 for tables built from counts).
-    layer_name : str or None, layer_labels : tuple
-        The layer variable and its categories (a single unnamed layer when there is none).
+    control_name : str or None, control_labels : tuple
+        The control variable and its categories (a single unnamed level when there is none).
     weight, weight_kind : str or None
         The weight column and whether its weights are ``"frequency"`` or ``"sampling"``.
     """
@@ -91,8 +97,8 @@ class OrdinalTable:
     steps: tuple[Step, ...] = ()
     n_missing: int = 0
     n_excluded: int = 0
-    layer_name: str | None = None
-    layer_labels: tuple = (None,)
+    control_name: str | None = None
+    control_labels: tuple = (None,)
     weight: str | None = None
     weight_kind: str | None = None
     squared_weights: np.ndarray | None = None  # (K, I, J) when weight_kind == "sampling"
@@ -111,7 +117,7 @@ class OrdinalTable:
     # ----------------------------------------------------------------- views of the counts
     @property
     def counts(self) -> pd.DataFrame:
-        """The table (pooled over layers) with ordered labels as index and columns."""
+        """The table (pooled over the control variable) with ordered labels as index and columns."""
         return pd.DataFrame(
             self.cells.sum(axis=0),
             index=pd.Index(list(self.row_labels), name=self.row_name, dtype=object),
@@ -149,7 +155,7 @@ class OrdinalTable:
 
         Notes
         -----
-        Counted on the table pooled over layers; the formulas and their source are in
+        Counted on the table pooled over the control variable; the formulas and their source are in
         :func:`rankfold.concordance.pair_counts` (Agresti 2010, sec. 7.1.1).
         """
         return pair_counts(self._pooled())
@@ -188,25 +194,26 @@ class OrdinalTable:
         return measures_frame(self._pooled(), sampling=self._sampling(), confidence=confidence)
 
     def tests(self, scores: str | Sequence[Sequence[float]] | None = None) -> pd.DataFrame:
-        """Tests of independence: Pearson chi-square, likelihood ratio, linear-by-linear.
+        """Tests of independence: Pearson X², likelihood-ratio G², linear trend M² = (n − 1) r².
 
         Parameters
         ----------
         scores : {'positions', 'midranks'} or (row_scores, col_scores), optional
-            Category scores of the linear-by-linear test (default: positions 1, 2, ...).
+            Category scores of the linear trend test (default: positions 1, 2, ...).
 
         Returns
         -------
         pandas.DataFrame
-            See :func:`rankfold.independence.tests_frame` (on the table pooled over layers).
-            A layered table adds ``cmh_correlation`` (association within layers, same
-            scores, midranks taken within each layer) and ``gamma_homogeneity``, see
-            :func:`rankfold.layers.layer_tests`.
+            See :func:`rankfold.independence.tests_frame` (on the table pooled over the control
+            variable). A table with a control variable adds ``cmh_correlation`` (association
+            within levels, same
+            scores, midranks taken within each level) and ``gamma_homogeneity``, see
+            :func:`rankfold.control_variable.control_tests`.
         """
         frame = tests_frame(self._pooled(), scores, sampling=self._sampling())
-        if self.layer_name is None:
+        if self.control_name is None:
             return frame
-        return pd.concat([frame, layer_tests(self, scores)])
+        return pd.concat([frame, control_tests(self, scores)])
 
     def permutation_test(
         self,
@@ -216,7 +223,7 @@ class OrdinalTable:
     ) -> PermutationResult:
         """Monte Carlo permutation p-value of a measure with both margins fixed.
 
-        It permutes units, so it is not available for sampling weights, and it ignores layers
+        It permutes units, so it is not available for sampling weights, and it ignores levels
         (it tests the pooled table).
 
         Parameters
@@ -257,7 +264,7 @@ class OrdinalTable:
         -------
         Diagnostics
             Computed by :func:`rankfold.diagnostics.diagnose` on the table pooled over
-            layers; :attr:`Diagnostics.sources` names the published source of each figure.
+            levels; :attr:`Diagnostics.sources` names the published source of each figure.
             With sampling weights the sparse-cell figures count records per cell, not
             weighted totals.
         """
@@ -269,51 +276,52 @@ class OrdinalTable:
         )
         return diagnose(counts, records=records)
 
-    # ---------------------------------------------------------------------------- layers
+    # ---------------------------------------------------------------------------- levels
     @property
-    def layer_counts(self) -> pd.DataFrame:
-        """Each layer's table, stacked, index (layer, row).
+    def control_counts(self) -> pd.DataFrame:
+        """Each level's table, stacked, index (level, row).
 
-        See :func:`rankfold.layers.layer_counts`.
+        See :func:`rankfold.control_variable.control_counts`.
         """
-        return layer_counts(self)
+        return control_counts(self)
 
-    def layer_table(self, label: Hashable) -> OrdinalTable:
-        """One layer as a table of its own; see :func:`rankfold.layers.single_layer`.
+    def control_table(self, label: Hashable) -> OrdinalTable:
+        """One level as a table of its own; see :func:`rankfold.control_variable.single_level`.
 
         Parameters
         ----------
         label : hashable
-            One of :attr:`layer_labels`.
+            One of :attr:`control_labels`.
 
         Returns
         -------
         OrdinalTable
-            Without a layer, with that layer's cells (and survey-weight figures).
+            Without a level, with that level's cells (and survey-weight figures).
         """
-        return single_layer(self, label)
+        return single_level(self, label)
 
-    def layer_measures(self, confidence: float = 0.95) -> pd.DataFrame:
-        """The measures of each layer's own table, index (layer, measure).
+    def control_measures(self, confidence: float = 0.95) -> pd.DataFrame:
+        """The measures of each level's own table, index (level, measure).
 
         Parameters
         ----------
         confidence : float
             Confidence level of the intervals, strictly between 0 and 1, the same for every
-            layer.
+            level.
 
         Returns
         -------
         pandas.DataFrame
-            See :func:`rankfold.layers.layer_measures`; each layer's rows are computed as in
+            See :func:`rankfold.control_variable.control_measures`; each level's rows are computed
+            as in
             :meth:`measures`, which gives the formulas and sources.
         """
-        return layer_measures(self, confidence)
+        return control_measures(self, confidence)
 
     def partial_measures(self, confidence: float = 0.95) -> pd.DataFrame:
-        """Partial gamma: the association within layers, pooled (Davis 1967, JASA 62:189).
+        """Partial gamma: the association within levels, pooled (Davis 1967, JASA 62:189).
 
-        Compare with :meth:`layer_measures` and the ``gamma_homogeneity`` row of :meth:`tests`
+        Compare with :meth:`control_measures` and the ``gamma_homogeneity`` row of :meth:`tests`
         before reporting a single value.
 
         Parameters
@@ -324,7 +332,7 @@ class OrdinalTable:
         Returns
         -------
         pandas.DataFrame
-            A single ``partial_gamma`` row (see :func:`rankfold.layers.partial_measures`)
+            A single ``partial_gamma`` row (see :func:`rankfold.control_variable.partial_measures`)
             with the columns of :meth:`measures`.
 
         References
@@ -580,7 +588,7 @@ class OrdinalTable:
         if self.origin.kind == "frame":
             source = repr(args["source"]) if "source" in args else data_name  # files by path
             parts = [source, repr(args["row"]), repr(args["col"])]
-            for key in ("layer", "weight"):
+            for key in ("control", "weight"):
                 if args.get(key) is not None:
                     parts.append(f"{key}={args[key]!r}")
             if args.get("weight_kind", "frequency") != "frequency":
@@ -623,14 +631,14 @@ class OrdinalTable:
         return "\n".join(lines)
 
     def __repr__(self) -> str:
-        layer = (
-            f", layered by {self.layer_name!r} ({len(self.layer_labels)})"
-            if self.layer_name
+        control = (
+            f", controlled by {self.control_name!r} ({len(self.control_labels)})"
+            if self.control_name
             else ""
         )
         weight = f", weighted by {self.weight!r} ({self.weight_kind})" if self.weight else ""
         return (
             f"<OrdinalTable {self.row_name!r} ({len(self.row_labels)}) x {self.col_name!r} "
-            f"({len(self.col_labels)}), n={self.n}{layer}{weight}, {len(self.steps)} steps>\n"
+            f"({len(self.col_labels)}), n={self.n}{control}{weight}, {len(self.steps)} steps>\n"
             f"{self.counts!r}"
         )

@@ -1,7 +1,7 @@
 """Counting where the data live: Dask, DuckDB (Parquet or CSV files, relations) and polars.
 
 Every measure depends on the records only through the table of counts, so a source too large
-for pandas is reduced by its own engine to one group-by over the row, column and layer values:
+for pandas is reduced by its own engine to one group-by over the row, column and control values:
 one line per distinct combination, with the number of records and, for a weight column, the
 sum of weights, the sum of squared weights and counts of unusable weights. That small result
 comes back as a pandas frame and :func:`rankfold.table` codes it with exactly the rules it
@@ -27,7 +27,7 @@ from .counting import check_columns, check_weights, order_kind, order_needed
 __all__ = ["MAX_LINES", "Tally", "engine_name", "schema", "tally_source"]
 
 MAX_LINES = 1_000_000
-"""Most distinct (row, column, layer) combinations a group-by may return."""
+"""Most distinct (row, column, control) combinations a group-by may return."""
 
 RECORDS = "__rankfold_records"
 WEIGHT_SUM = "__rankfold_weight_sum"
@@ -77,18 +77,18 @@ class Request:
 
     row: str
     col: str
-    layer: str | None
+    control: str | None
     weight: str | None
     order: Mapping[str, Sequence[Hashable]]
 
     @property
     def keys(self) -> list[str]:
-        """The columns to group by: row, column and, when given, layer."""
-        return [k for k in (self.row, self.col, self.layer) if k is not None]
+        """The columns to group by: row, column and, when given, control."""
+        return [k for k in (self.row, self.col, self.control) if k is not None]
 
     def check(self, schema: pd.DataFrame) -> None:
         """Refuse, before any pass over the data, a count whose result the rules would reject."""
-        check_columns(schema.columns, [self.row, self.col, self.layer, self.weight])
+        check_columns(schema.columns, [self.row, self.col, self.control, self.weight])
         for name in (self.row, self.col):
             if name not in self.order and order_kind(schema[name].dtype) is None:
                 raise ValueError(order_needed(name, []))
@@ -273,11 +273,11 @@ def tally_source(
     row: str,
     col: str,
     *,
-    layer: str | None = None,
+    control: str | None = None,
     weight: str | None = None,
     order: Mapping[str, Sequence[Hashable]] | None = None,
 ) -> tuple[pd.DataFrame, Tally]:
-    """Count a source with its own engine: one line per distinct (row, col, layer) values.
+    """Count a source with its own engine: one line per distinct (row, col, control) values.
 
     Parameters
     ----------
@@ -286,8 +286,8 @@ def tally_source(
         ``.pq``) or CSV (``.csv``, ``.tsv``, ``.csv.gz``) files, read by DuckDB.
     row, col : str
         Row and column variables.
-    layer : str, optional
-        Layer variable.
+    control : str, optional
+        Control variable.
     weight : str, optional
         Weight column: its sums, sums of squares and unusable values are tallied too.
     order : dict, optional
@@ -298,7 +298,7 @@ def tally_source(
     Returns
     -------
     lines : pandas.DataFrame
-        The ``row``, ``col`` (and ``layer``) values of each distinct combination, missing
+        The ``row``, ``col`` (and ``control``) values of each distinct combination, missing
         values included, with the column types the source has.
     tally : Tally
         The records and weight totals behind each line.
@@ -318,7 +318,7 @@ def tally_source(
     over any partition of the records, so each engine may count its partitions separately
     and add the results, which is what Dask does on a cluster and DuckDB does out of core.
     """
-    request = Request(row, col, layer, weight, dict(order or {}))
+    request = Request(row, col, control, weight, dict(order or {}))
     keys = request.keys
     lines = ENGINES[engine_name(source)][1](source, request)
     if len(lines) > MAX_LINES:

@@ -144,8 +144,8 @@ def test_a_column_name_used_twice_in_the_frame_is_refused():
 @pytest.mark.parametrize("confidence", ["0.95", None, [0.9]])
 def test_confidence_must_be_a_number(confidence):
     frame = pd.DataFrame({"x": [1, 2, 1, 2], "y": [1, 2, 2, 1], "g": [1, 1, 2, 2]})
-    table = rankfold.table(frame, "x", "y", layer="g")
-    for method in (table.measures, table.partial_measures, table.layer_measures):
+    table = rankfold.table(frame, "x", "y", control="g")
+    for method in (table.measures, table.partial_measures, table.control_measures):
         with pytest.raises(ValueError, match="confidence"):
             method(confidence)
 
@@ -188,15 +188,15 @@ def test_undefined_two_by_two_measures_carry_no_standard_error(counts):
     assert np.isfinite(frame[["std_error", "std_error_null"]].fillna(0).to_numpy()).all()
 
 
-def test_a_layer_whose_sampling_weights_are_all_zero_is_explained_quietly():
+def test_a_level_whose_sampling_weights_are_all_zero_is_explained_quietly():
     rng = np.random.default_rng(3)
     frame = pd.DataFrame({"x": rng.integers(1, 4, 60), "y": rng.integers(1, 4, 60),
                           "g": np.repeat(["u", "v", "w"], 20), "w": rng.uniform(0.5, 3, 60)})
     frame.loc[frame["g"] == "w", "w"] = 0.0
-    table = rankfold.table(frame, "x", "y", layer="g", weight="w", weight_kind="sampling")
-    layer = quietly(table.layer_measures).xs("w", level=0)
-    assert layer["estimate"].isna().all()
-    assert layer["note"].str.startswith("the table is empty").all()
+    table = rankfold.table(frame, "x", "y", control="g", weight="w", weight_kind="sampling")
+    level = quietly(table.control_measures).xs("w", level=0)
+    assert level["estimate"].isna().all()
+    assert level["note"].str.startswith("the table is empty").all()
     quietly(table.tests)
 
 
@@ -289,12 +289,12 @@ def test_totals_within_range_give_scale_free_estimates_quietly(scale):
     np.testing.assert_allclose(scaled, reference, rtol=1e-9)
 
 
-def test_a_layer_column_with_no_values_is_refused_with_the_reason():
+def test_a_level_column_with_no_values_is_refused_with_the_reason():
     frame = pd.DataFrame({"x": [1, 2, 3, 2], "y": [1, 2, 3, 1], "g": [np.nan] * 4})
     with pytest.raises(ValueError, match="'g'.*no categor"):
-        rankfold.table(frame, "x", "y", layer="g")
-    table = rankfold.table(frame, "x", "y", layer="g", dropna=False)
-    assert table.layer_labels == ("(missing)",)
+        rankfold.table(frame, "x", "y", control="g")
+    table = rankfold.table(frame, "x", "y", control="g", dropna=False)
+    assert table.control_labels == ("(missing)",)
 
 
 @pytest.mark.parametrize("kind", [tuple, np.array, pd.Index])

@@ -83,8 +83,8 @@ def test_pickers_list_the_source_columns_from_their_types(parquet_path):
     # numbers can be put in order; text ('gym', 'mood') cannot without order=
     assert offered == ["sessions_per_month", "route_grade", "years_member", "stay_minutes",
                        "weight"]
-    layers = [label for label, _ in pickers._layer.options]
-    assert layers == ["none", "sessions_per_month", "route_grade", "years_member", "gym", "mood"]
+    levels = [label for label, _ in pickers._control.options]
+    assert levels == ["none", "sessions_per_month", "route_grade", "years_member", "gym", "mood"]
     weights = [value for _, value in pickers._weight.options]
     assert "weight" in weights and "gym" not in weights
 
@@ -124,10 +124,10 @@ def test_a_failed_background_count_keeps_the_previous_table(parquet_path):
 
 
 def test_table_mode_works_from_the_counts(visits):
-    table = rankfold.table(visits, "sessions_per_month", "mood", layer="gym",
+    table = rankfold.table(visits, "sessions_per_month", "mood", control="gym",
                            order={"mood": SCORE})
     ex = rankfold.explore(table)
-    assert (ex.state.row, ex.state.col, ex.state.layer) == ("sessions_per_month", "mood", "gym")
+    assert (ex.state.row, ex.state.col, ex.state.control) == ("sessions_per_month", "mood", "gym")
     assert list(ex._pickers._row.options) == ["sessions_per_month", "mood"]
     ex.exclude("cols", ["middle"])
     ex.swap()
@@ -147,10 +147,10 @@ def test_table_mode_works_from_the_counts(visits):
 def test_table_mode_refuses_other_roles_in_the_widget(visits):
     table = rankfold.table_from_counts([[20, 5], [4, 18]], row_name="before", col_name="after")
     ex = rankfold.explore(table)
-    ex._pickers._layer.options = [("none", None), ("gym", "gym")]
-    ex._pickers._layer.value = "gym"
-    assert "layer and weight are fixed" in ex._message.value
-    assert ex.state.layer is None
+    ex._pickers._control.options = [("none", None), ("gym", "gym")]
+    ex._pickers._control.value = "gym"
+    assert "control variable and weight are fixed" in ex._message.value
+    assert ex.state.control is None
     assert ex.table.counts.to_numpy().tolist() == [[20, 5], [4, 18]]
 
 

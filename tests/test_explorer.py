@@ -273,7 +273,7 @@ def test_measures_panel_shows_estimates_warnings_and_cautions(ex, df):
         shown = "–" if np.isnan(estimate) else f"{estimate:.4f}"
         assert f'<td class="rankfold-estimate" data-measure="{key}">{shown}</td>' in panel
     assert f"Somers&#x27; d ({COL} | {ROW})" in panel
-    assert 'data-measure="pearson_chi_square"' in panel
+    assert 'data-measure="pearson_x2"' in panel
     assert "not evidence that one variable causes" in panel
     # the demo's raw table is sparse (Cochran's rule fails); merging the rare extremes fixes it
     assert ex.table.diagnostics().warnings and "rankfold-warning" in panel
@@ -365,35 +365,35 @@ def test_toggles_and_code_name_a_twice_merged_band_alike(df):
 def test_refused_roles_keep_the_pickers_on_none(df):
     signed = df.assign(score=np.linspace(-1.0, 1.0, len(df)))
     ex = rankfold.explore(signed, ROW, COL)
-    layer, weight = one(ex, "rankfold-layer-picker"), one(ex, "rankfold-weight-picker")
+    control, weight = one(ex, "rankfold-control-picker"), one(ex, "rankfold-weight-picker")
     kept = ex.table
     weight.label = "score"  # negative weights are refused ...
     assert "negative value" in message(ex) and "score" in message(ex)
     assert ex.table is kept and ex.state.weight is None
     # ... and the picker shows "none" again (a Dropdown value of None would show it blank)
     assert (weight.index, weight.label) == (0, "none")
-    layer.label = ROW  # the row variable cannot also be the layer
-    assert f"&#x27;{ROW}&#x27; cannot be both the row and the layer variable" in message(ex)
-    assert (layer.index, layer.label) == (0, "none") and ex.table is kept
-    layer.label = "district"
-    assert ex.table.layer_name == "district" and message(ex) == ""
-    layer.label = "none"
-    assert ex.table.layer_name is None and (layer.index, layer.label) == (0, "none")
+    control.label = ROW  # the row variable cannot also be the level
+    assert f"&#x27;{ROW}&#x27; cannot be both the row and the control variable" in message(ex)
+    assert (control.index, control.label) == (0, "none") and ex.table is kept
+    control.label = "district"
+    assert ex.table.control_name == "district" and message(ex) == ""
+    control.label = "none"
+    assert ex.table.control_name is None and (control.index, control.label) == (0, "none")
 
 
 def test_chart_panes_say_their_charts_are_vega_lite(df):
     # The panes drop "$schema" (no address in the page), so the page must be told the kind of
-    # specification: from its keys alone the layers view's concatenated chart passes for Vega
+    # specification: from its keys alone the within-levels view's concatenated chart passes for Vega
     # and draws nothing.
-    ex = rankfold.explore(df, ROW, COL, layer="age_band")
+    ex = rankfold.explore(df, ROW, COL, control="age_band")
     panes = {"Heatmap": "rankfold-heatmap", "Compare": "rankfold-comparison",
-             "Codings": "rankfold-sweep", "Layers": "rankfold-layer-heatmaps"}
+             "Codings": "rankfold-sweep", "Within each level": "rankfold-within-heatmaps"}
     for title, css in panes.items():
         open_tab(ex, title)
         (chart,) = one(ex, css).children
         assert isinstance(chart, alt.JupyterChart) and "$schema" not in chart.spec
         assert chart.embed_options["mode"] == "vega-lite"
-    assert "concat" in chart.spec  # the layers view
+    assert "concat" in chart.spec  # the within-levels view
 
 
 def test_a_note_every_measure_shares_is_written_once(df):
@@ -409,12 +409,12 @@ def test_heatmap_legends_draw_no_svg_gradient(df):
     # Each chart on a page numbers its SVG gradients from 0, so a second chart's gradient
     # legend would paint the first one's gradient (or none when that one sits in a hidden tab).
     vl_convert = pytest.importorskip("vl_convert")
-    from rankfold.widgets.layer_view import layer_heatmaps
+    from rankfold.widgets.within_levels_view import level_heatmaps
 
-    ex = rankfold.explore(df, ROW, COL, layer="age_band")
+    ex = rankfold.explore(df, ROW, COL, control="age_band")
     for colour_by in ("count", "pair_contribution"):
         ex.set_view(colour_by=colour_by)
-        for chart in (ex.chart("heatmap"), layer_heatmaps(ex.table, colour_by)):
+        for chart in (ex.chart("heatmap"), level_heatmaps(ex.table, colour_by)):
             svg = vl_convert.vegalite_to_svg(chart.to_dict())
             assert "<rect" in svg or "<path" in svg
             assert "linearGradient" not in svg

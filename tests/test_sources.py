@@ -53,11 +53,11 @@ def invented_parcels(n: int = 3000, seed: int = 7) -> pd.DataFrame:
 
 CALLS = {
     "plain": dict(row="distance", col="delay_days"),
-    "layered, excluded": dict(row="distance", col="rating", layer="depot",
+    "controlled, excluded": dict(row="distance", col="rating", control="depot",
                               exclude={"rating": ["no answer"]}),
     "frequency weights": dict(row="distance", col="delay_days", weight="parcels"),
     "fractional frequency weights": dict(row="distance", col="delay_days", weight="weight"),
-    "sampling weights": dict(row="distance", col="delay_days", layer="depot", weight="weight",
+    "sampling weights": dict(row="distance", col="delay_days", control="depot", weight="weight",
                              weight_kind="sampling", exclude={"delay_days": [4.0]}),
     "missing kept": dict(row="distance", col="delay_days", dropna=False),
 }
@@ -66,7 +66,7 @@ ORDER = {"distance": DISTANCE, "rating": ["poor", "fair", "good", "no answer"]}
 
 def with_order(call: dict) -> dict:
     """The same explicit order for every engine (a Parquet file keeps no category order)."""
-    keys = (call["row"], call["col"], call.get("layer"))
+    keys = (call["row"], call["col"], call.get("control"))
     exclude = {k: v for k, v in call.get("exclude", {}).items() if k in keys}
     return {**call, "exclude": exclude, "order": {k: v for k, v in ORDER.items() if k in keys}}
 
@@ -96,7 +96,7 @@ def client():
 def assert_same_table(got: rankfold.OrdinalTable, want: rankfold.OrdinalTable) -> None:
     assert got.row_labels == want.row_labels
     assert got.col_labels == want.col_labels
-    assert got.layer_labels == want.layer_labels
+    assert got.control_labels == want.control_labels
     assert got.steps == want.steps
     assert (got.n_missing, got.n_excluded) == (want.n_missing, want.n_excluded)
     assert got.cells.dtype == want.cells.dtype
@@ -113,7 +113,7 @@ def test_pandas_counts_match_pandas_groupby(parcels, case):
     # Outside reference: pandas' own group-by sums (size, sum of w, sum of w^2) per cell.
     call = with_order(CALLS[case])
     t = rankfold.table(parcels, **call)
-    keys = [k for k in (call.get("layer"), call["row"], call["col"]) if k is not None]
+    keys = [k for k in (call.get("control"), call["row"], call["col"]) if k is not None]
     w = call.get("weight")
     kept = parcels[keys + ([w] if w else [])]
     for name, drop in call["exclude"].items():
@@ -124,10 +124,10 @@ def test_pandas_counts_match_pandas_groupby(parcels, case):
         kept = kept.assign(**{k: kept[k].astype(object).where(kept[k].notna(), "(missing)")
                               for k in keys})
     grouped = kept.assign(one=1, w2=kept[w] ** 2 if w else 1).groupby(keys, observed=True)
-    layers = t.layer_labels if call.get("layer") else [None]
+    levels = t.control_labels if call.get("control") else [None]
     for (position, total) in grouped[w or "one"].sum().items():
-        *layer, r, c = position
-        k = layers.index(layer[0]) if layer else 0
+        *level, r, c = position
+        k = levels.index(level[0]) if level else 0
         assert t.cells[k, t.row_labels.index(r), t.col_labels.index(c)] == pytest.approx(total)
     assert t.n == pytest.approx(kept[w].sum() if w else len(kept))
     if call.get("weight_kind") == "sampling":
@@ -273,8 +273,8 @@ def test_too_many_combinations_are_refused(monkeypatch):
 def test_csv_files_and_code_that_rebuilds_the_table(parcels, tmp_path):
     path = tmp_path / "parcels.csv"
     parcels.to_csv(path, index=False)
-    t = rankfold.table(str(path), "delay_days", "parcels", layer="depot")
-    assert_same_table(t, rankfold.table(parcels, "delay_days", "parcels", layer="depot"))
+    t = rankfold.table(str(path), "delay_days", "parcels", control="depot")
+    assert_same_table(t, rankfold.table(parcels, "delay_days", "parcels", control="depot"))
     namespace: dict = {}
     exec(t.merge("rows", [[0.0, 1.0]]).to_code(), namespace)
     np.testing.assert_array_equal(namespace["table"].cells, t.merge("rows", [[0.0, 1.0]]).cells)

@@ -208,7 +208,7 @@ def test_one_axis_sweep_is_the_matching_part_of_the_full_sweep():
     pd.testing.assert_frame_equal(rows_only.reset_index(drop=True), part, check_categorical=False)
 
 
-# ------------------------------------------------------------------ weights and layers
+# ------------------------------------------------------------------ weights and control variables
 def invented_survey(seed: int = 11, size: int = 400) -> pd.DataFrame:
     """Invented records: a 4-band exposure, a 4-point outcome, a site and a sampling weight."""
     rng = np.random.default_rng(seed)
@@ -235,12 +235,12 @@ def test_sampling_weights_match_the_one_table_path():
                 expected.loc[measure, "std_error"], rel=1e-9)
 
 
-def test_layered_table_pooled_and_partial_gamma():
-    table = rankfold.table(invented_survey(), "exposure", "outcome", layer="site")
+def test_controlled_table_pooled_and_partial_gamma():
+    table = rankfold.table(invented_survey(), "exposure", "outcome", control="site")
     frame = rankfold.sweep(table, measures=("gamma", "partial_gamma"))
     for _, row in frame.iterrows():
         recoded = rankfold.apply_coding(table, row["row_cuts"], row["col_cuts"])
-        # References: the pooled table's measures and the layers module's partial gamma.
+        # References: the pooled table's measures and the control_variable module's partial gamma.
         assert row["gamma"] == pytest.approx(recoded.measures().loc["gamma", "estimate"])
         partial = recoded.partial_measures().loc["partial_gamma"]
         assert row["partial_gamma"] == pytest.approx(partial["estimate"], rel=1e-12)
@@ -340,7 +340,7 @@ def test_rule_met_agrees_with_hand_rule_on_every_coding():
 def test_nothing_changes_the_table_or_the_frame():
     data = invented_survey()
     before = pd.util.hash_pandas_object(data, index=True).to_numpy().copy()
-    table = rankfold.table(data, "exposure", "outcome", layer="site", weight="w",
+    table = rankfold.table(data, "exposure", "outcome", control="site", weight="w",
                            weight_kind="sampling")
     cells, squared = table.cells.copy(), table.squared_weights.copy()
     steps, labels = table.steps, (table.row_labels, table.col_labels)
@@ -368,7 +368,8 @@ SMALL_TABLE = rankfold.table_from_counts(SMALL)
         (lambda: rankfold.sweep(SMALL_TABLE, min_categories=5), "fewer than min_categories"),
         (lambda: rankfold.sweep(SMALL_TABLE, measures=("gamma", "kappa")), "measures must"),
         (lambda: rankfold.sweep(SMALL_TABLE, measures=()), "measures must"),
-        (lambda: rankfold.sweep(SMALL_TABLE, measures=("partial_gamma",)), "layered"),
+        (lambda: rankfold.sweep(SMALL_TABLE, measures=("partial_gamma",)),
+         "with a control variable"),
         (lambda: rankfold.sweep(SMALL_TABLE, max_schemes=0), "max_schemes"),
         (lambda: rankfold.sweep(SMALL_TABLE, max_schemes=100), "axes='rows': 15 codings"),
         (lambda: list(rankfold.sweep_chunks(SMALL_TABLE, chunk_size=0)), "chunk_size"),

@@ -40,12 +40,12 @@ def test_frequency_weights_equal_expanded_rows(survey):
     frame = survey.assign(times=rng.integers(0, 4, size=len(survey)))  # zeros allowed
     # Outside reference: the records repeated `times` times (rows with 0 disappear).
     expanded = frame.loc[frame.index.repeat(frame["times"])]
-    weighted = rankfold.table(frame, "trip", "rating", layer="region", weight="times")
-    plain = rankfold.table(expanded, "trip", "rating", layer="region")
+    weighted = rankfold.table(frame, "trip", "rating", control="region", weight="times")
+    plain = rankfold.table(expanded, "trip", "rating", control="region")
     np.testing.assert_array_equal(weighted.cells, plain.cells)
     pd.testing.assert_frame_equal(weighted.measures(), plain.measures())
     pd.testing.assert_frame_equal(weighted.tests(), plain.tests())
-    pd.testing.assert_frame_equal(weighted.layer_measures(), plain.layer_measures())
+    pd.testing.assert_frame_equal(weighted.control_measures(), plain.control_measures())
     pd.testing.assert_frame_equal(weighted.partial_measures(), plain.partial_measures())
     assert weighted.pairs() == plain.pairs()
 
@@ -57,7 +57,7 @@ def bootstrap_estimates(frame: pd.DataFrame, rng: np.random.Generator, draws: in
 
     Each resample is a vector of multiplicities per record; with one-hot cell indicators the
     weighted tables of all resamples are one matrix product. With `strata`, records are
-    resampled within each stratum (layer) separately and the tables are (draws, K, I, J).
+    resampled within each stratum (level) separately and the tables are (draws, K, I, J).
     """
     rows = np.searchsorted([1, 2, 3], frame["trip"].to_numpy())
     cols = np.searchsorted([1, 2, 3, 4], frame["rating"].to_numpy())
@@ -75,7 +75,7 @@ def bootstrap_estimates(frame: pd.DataFrame, rng: np.random.Generator, draws: in
     if strata is None:
         return {key: value["estimate"][:, 0]
                 for key, value in ordinal_measure_arrays(cells).items()}
-    return {"partial_gamma": rankfold.layers.partial_gamma_arrays(cells)["estimate"]}
+    return {"partial_gamma": rankfold.control_variable.partial_gamma_arrays(cells)["estimate"]}
 
 
 def test_sampling_weight_errors_match_bootstrap(survey):
@@ -95,8 +95,8 @@ def test_sampling_weight_errors_match_bootstrap(survey):
 
 
 def test_sampling_weight_partial_gamma_matches_stratified_bootstrap(survey):
-    # Layers are independent samples: resample records within each layer.
-    t = rankfold.table(survey, "trip", "rating", layer="region", weight="w",
+    # Levels are independent samples: resample records within each level.
+    t = rankfold.table(survey, "trip", "rating", control="region", weight="w",
                        weight_kind="sampling")
     spread = bootstrap_estimates(survey, np.random.default_rng(7), 3000, strata="region")
     se = t.partial_measures().loc["partial_gamma", "std_error"]
@@ -116,33 +116,33 @@ def test_constant_sampling_weights_give_unweighted_errors(survey):
         weighted, plain = build(weight="c", weight_kind="sampling"), build()
         pd.testing.assert_frame_equal(weighted.measures().loc[CHECKED, ERROR_COLUMNS],
                                       plain.measures().loc[CHECKED, ERROR_COLUMNS])
-    layered = rankfold.table(frame, "trip", "rating", layer="region", weight="c",
+    controlled = rankfold.table(frame, "trip", "rating", control="region", weight="c",
                              weight_kind="sampling")
-    plain = rankfold.table(frame, "trip", "rating", layer="region")
-    pd.testing.assert_frame_equal(layered.partial_measures()[ERROR_COLUMNS],
+    plain = rankfold.table(frame, "trip", "rating", control="region")
+    pd.testing.assert_frame_equal(controlled.partial_measures()[ERROR_COLUMNS],
                                   plain.partial_measures()[ERROR_COLUMNS])
     pd.testing.assert_frame_equal(
-        layered.layer_measures().loc[(slice(None), CHECKED), ERROR_COLUMNS],
-        plain.layer_measures().loc[(slice(None), CHECKED), ERROR_COLUMNS])
+        controlled.control_measures().loc[(slice(None), CHECKED), ERROR_COLUMNS],
+        plain.control_measures().loc[(slice(None), CHECKED), ERROR_COLUMNS])
 
 
 def test_kish_effective_size_in_notes(survey):
-    t = rankfold.table(survey, "trip", "rating", layer="region", weight="w",
+    t = rankfold.table(survey, "trip", "rating", control="region", weight="w",
                        weight_kind="sampling")
     w = survey["w"]
     # Kish (1965, Survey Sampling, sec. 11.7): n_eff = (sum w)^2 / sum w^2
     kish = w.sum() ** 2 / (w**2).sum()
     assert f"Kish effective n = {kish:,.1f}" in t.measures().loc["gamma", "note"]
     for label, part in survey.groupby("region")["w"]:
-        note = t.layer_measures().loc[(label, "gamma"), "note"]
+        note = t.control_measures().loc[(label, "gamma"), "note"]
         assert f"Kish effective n = {part.sum() ** 2 / (part**2).sum():,.1f}" in note
 
 
 def test_count_based_tests_refuse_sampling_weights(survey):
-    t = rankfold.table(survey, "trip", "rating", layer="region", weight="w",
+    t = rankfold.table(survey, "trip", "rating", control="region", weight="w",
                        weight_kind="sampling")
     tests = t.tests()
-    for key in ("pearson_chi_square", "likelihood_ratio", "linear_by_linear", "cmh_correlation"):
+    for key in ("pearson_x2", "likelihood_ratio_g2", "trend_m2", "cmh_correlation"):
         assert np.isnan(tests.loc[key, "statistic"])
         assert "sampling weights" in tests.loc[key, "note"]
     assert np.isfinite(tests.loc["gamma_homogeneity", "statistic"])
@@ -182,9 +182,9 @@ def test_dataframe_is_untouched(survey):
     frame = survey.copy()
     frame.loc[3, "rating"] = np.nan
     before = frame.copy(deep=True)
-    t = rankfold.table(frame, "trip", "rating", layer="region", weight="w",
+    t = rankfold.table(frame, "trip", "rating", control="region", weight="w",
                        weight_kind="sampling", exclude={"trip": [3]})
-    t.measures(), t.layer_measures(), t.partial_measures(), t.tests(), t.layer_counts
+    t.measures(), t.control_measures(), t.partial_measures(), t.tests(), t.control_counts
     t.merge("cols", [[1, 2]]).partial_measures()
     pd.testing.assert_frame_equal(frame, before)
     assert list(frame.columns) == list(before.columns)

@@ -17,7 +17,7 @@ if TYPE_CHECKING:
 
 __all__ = ["CategoryEditor", "StepsPanel"]
 
-_AXIS_TITLES = {"rows": "rows", "cols": "columns"}
+_AXIS_TITLES = {"rows": "down the side", "cols": "across the top"}
 
 
 def _small(widget: widgets.DOMWidget, css_class: str, tooltip: str) -> widgets.DOMWidget:

@@ -23,7 +23,7 @@ __all__ = ["ChartPane", "CLICK", "building", "inline_data"]
 CLICK = "cell"
 
 # The mode is stated because the pane drops "$schema" (below), from which the page would
-# otherwise guess it; without either, a concatenated chart (the layers view) is taken for a
+# otherwise guess it; without either, a concatenated chart (the within-levels view) is taken for a
 # Vega specification and draws nothing.
 _EMBED_OPTIONS = {"actions": False, "renderer": "svg", "mode": "vega-lite"}
 

@@ -11,12 +11,12 @@ CSS classes (stable, for styling and browser tests)
     The whole explorer.
 ``rankfold-row-picker``, ``rankfold-col-picker``, ``rankfold-swap``
     Row and column variable Dropdowns and the swap button (inside ``rankfold-pickers``).
-``rankfold-layer-picker``, ``rankfold-weight-picker``, ``rankfold-weight-kind``
-    Layer and weight Dropdowns ("none" first) and the weight kind (also in the pickers).
-``rankfold-layer-measures-box``, ``rankfold-layer-heatmaps``
-    The Layers tab: ``table.rankfold-layer-measures`` (rows carry ``data-layer`` or
-    ``data-measure``: ``partial_gamma``, ``gamma``), ``p.rankfold-layer-test`` lines
-    (``data-test``: ``gamma_homogeneity``, ``cmh_correlation``), and one heatmap per layer.
+``rankfold-control-picker``, ``rankfold-weight-picker``, ``rankfold-weight-kind``
+    Control and weight Dropdowns ("none" first) and the weight kind (also in the pickers).
+``rankfold-within-measures-box``, ``rankfold-within-heatmaps``
+    The "Within each level" tab: ``table.rankfold-within-measures`` (rows carry ``data-level`` or
+    ``data-measure``: ``partial_gamma``, ``gamma``), ``p.rankfold-within-test`` lines
+    (``data-test``: ``gamma_homogeneity``, ``cmh_correlation``), and one heatmap per level.
 ``rankfold-message``
     Message area; holds a ``div.rankfold-message-error`` or ``div.rankfold-message-info``.
 ``rankfold-editor-rows``, ``rankfold-editor-cols`` (both also ``rankfold-editor``)
@@ -45,7 +45,7 @@ CSS classes (stable, for styling and browser tests)
     Export controls and the code of the current table.
 ``rankfold-measures-panel``
     The measures: ``table.rankfold-measures`` whose rows carry ``data-measure`` (the measure
-    key, e.g. ``gamma``, plus ``pearson_chi_square``) and whose ``td.rankfold-estimate`` cells
+    key, e.g. ``gamma``, plus ``pearson_x2``) and whose ``td.rankfold-estimate`` cells
     hold the estimate to 4 decimals; ``div.rankfold-warning`` for sparse-cell warnings and
     ``ul.rankfold-cautions``.
 """
@@ -59,13 +59,13 @@ import ipywidgets as widgets
 import pandas as pd
 
 from rankfold import OrdinalTable
+from rankfold.counting import refuse_unknown_keywords
 
 from . import formatting
 from .category_editor import CategoryEditor, StepsPanel
 from .comparison import ComparisonSection
 from .export import ExportSection, code_snippet, save_chart
 from .heatmap import HeatmapSection
-from .layer_view import LayerSection
 from .measures_panel import measures_html
 from .pair_view import PairSection
 from .pickers import VariablePickers
@@ -73,6 +73,7 @@ from .render import Rendered, TableCache, render
 from .state import Edit, ExplorerState
 from .sweep_view import SweepSection
 from .table_mode import BackgroundCount, has_records, offer_for
+from .within_levels_view import WithinLevelsSection
 
 if TYPE_CHECKING:
     import altair as alt
@@ -88,7 +89,7 @@ SECTIONS: list[tuple[str, Callable[[Callable, Callable], Any]]] = [
     ("Compare", ComparisonSection),
     ("Codings", SweepSection),
     ("Export", ExportSection),
-    ("Layers", LayerSection),
+    ("Within each level", WithinLevelsSection),
 ]
 
 _STYLE = """<style>
@@ -117,14 +118,14 @@ _STYLE = """<style>
 .rankfold-hint { opacity: 0.7; }
 .rankfold-code pre { white-space: pre; overflow-x: auto; padding: 6px;
   border: 1px solid var(--jp-border-color2, rgba(128, 128, 128, 0.35)); }
-.rankfold-layer-measures { border-collapse: collapse; font-variant-numeric: tabular-nums; }
-.rankfold-layer-measures th, .rankfold-layer-measures td { padding: 2px 8px; text-align: right;
+.rankfold-within-measures { border-collapse: collapse; font-variant-numeric: tabular-nums; }
+.rankfold-within-measures th, .rankfold-within-measures td { padding: 2px 8px; text-align: right;
   border-bottom: 1px solid var(--jp-border-color2, rgba(128, 128, 128, 0.35)); }
-.rankfold-layer-measures th[scope=row], .rankfold-layer-measures td.rankfold-note,
-.rankfold-layer-measures thead th:first-child, .rankfold-layer-measures thead th:last-child {
+.rankfold-within-measures th[scope=row], .rankfold-within-measures td.rankfold-note,
+.rankfold-within-measures thead th:first-child, .rankfold-within-measures thead th:last-child {
   text-align: left; }
-.rankfold-layer-measures th[scope=row] { font-weight: normal; }
-.rankfold-layer-measures td.rankfold-note { font-size: 90%; opacity: 0.8; max-width: 30em; }
+.rankfold-within-measures th[scope=row] { font-weight: normal; }
+.rankfold-within-measures td.rankfold-note { font-size: 90%; opacity: 0.8; max-width: 30em; }
 </style>"""
 
 
@@ -147,21 +148,23 @@ class Explorer(widgets.VBox):
         row: str | None = None,
         col: str | None = None,
         *,
-        layer: str | None = None,
+        control: str | None = None,
         weight: str | None = None,
         weight_kind: str = "frequency",
         order: Mapping[str, Sequence[Hashable]] | None = None,
+        **unknown: Any,
     ) -> None:
+        refuse_unknown_keywords("Explorer", unknown)
         offer = offer_for(data, order)  # refuses data it cannot explore
         if offer.fixed:  # a ready table brings its own variables
             row, col = row or offer.fixed["row"], col or offer.fixed["col"]
-            layer, weight = offer.fixed["layer"], offer.fixed["weight"]
+            control, weight = offer.fixed["control"], offer.fixed["weight"]
             weight_kind = offer.fixed["weight_kind"]
         columns = offer.orderable
         for name in (row, col):
             if name is not None and name not in offer.columns:
                 raise ValueError(f"{name!r} is not a column; the columns are {offer.columns}.")
-        free = [c for c in columns if c not in (row, col, layer, weight)]
+        free = [c for c in columns if c not in (row, col, control, weight)]
         row = row if row is not None else (free.pop(0) if free else None)
         col = col if col is not None else (free.pop(0) if free else None)
         if row is None or col is None:
@@ -171,7 +174,7 @@ class Explorer(widgets.VBox):
                 "order, e.g. explore(df, order={'answer': ['low', 'mid', 'high']})."
             )
         state = ExplorerState(
-            row=row, col=col, layer=layer, weight=weight, weight_kind=weight_kind,
+            row=row, col=col, control=control, weight=weight, weight_kind=weight_kind,
             order=tuple((k, tuple(v)) for k, v in (order or {}).items()),
         )
         self._cache = TableCache(data)
@@ -181,7 +184,7 @@ class Explorer(widgets.VBox):
         self._message.add_class("rankfold-message")
         propose = self._propose
         offered = columns + [c for c in (row, col) if c not in columns]
-        self._pickers = VariablePickers(offered, propose, layers=offer.layers,
+        self._pickers = VariablePickers(offered, propose, controls=offer.controls,
                                         weights=offer.weights)
         self._counting = BackgroundCount()
         self._editors = [CategoryEditor("rows", propose), CategoryEditor("cols", propose)]
@@ -445,10 +448,11 @@ def explore(
     row: str | None = None,
     col: str | None = None,
     *,
-    layer: str | None = None,
+    control: str | None = None,
     weight: str | None = None,
     weight_kind: str = "frequency",
     order: Mapping[str, Sequence[Hashable]] | None = None,
+    **unknown: Any,
 ) -> Explorer:
     """Open the explorer on two ordered variables of a DataFrame, a larger source, or a table.
 
@@ -460,11 +464,11 @@ def explore(
         relation, a path or glob of Parquet or CSV files): the pickers list its columns from
         their types, and a pair chosen in the pickers is counted by its engine in the
         background while a progress bar shows. A ready :class:`~rankfold.OrdinalTable` is
-        explored as it is: its variables, layer and weight are fixed, and everything else
-        works from its counts.
+        explored as it is: its variables, control variable and weight are fixed, and
+        everything else works from its counts.
     row, col : str, optional
         The row and column variables; default: the first two columns that can be ordered.
-    layer, weight, weight_kind, order
+    control, weight, weight_kind, order
         As in :func:`rankfold.table`.
 
     Returns
@@ -490,4 +494,6 @@ def explore(
     >>> ex.table.shape
     (5, 5)
     """
-    return Explorer(df, row, col, layer=layer, weight=weight, weight_kind=weight_kind, order=order)
+    refuse_unknown_keywords("explore", unknown)
+    return Explorer(df, row, col, control=control, weight=weight, weight_kind=weight_kind,
+                    order=order)

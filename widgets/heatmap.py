@@ -105,7 +105,7 @@ def heatmap_chart(
         Positions of a cell to outline (the one the pair view explains).
     scale_max : float, optional
         Largest absolute value the colour scale must reach; give the same value to several
-        charts (one per layer) so that they share one colour scale.
+        charts (one per level of the control variable) so that they share one colour scale.
     weight : str, optional
         The weight column, named in the subtitle: the cells then hold sums of weights.
 
@@ -165,17 +165,17 @@ def heatmap_chart(
         text = alt.Chart().mark_text(fontSize=11).encode(
             x=x, y=y, text=alt.Text(field="label", type="nominal"), color=ink
         )
-        layers = [rect, text]
+        marks = [rect, text]
         if chosen is not None:
             outline = alt.Chart().mark_rect(fill=None, stroke="#111111", strokeWidth=3).encode(
                 x=x, y=y
             ).transform_filter(
                 f"datum.row_position == {int(chosen[0])} && datum.col_position == {int(chosen[1])}"
             )
-            layers.append(outline)
+            marks.append(outline)
         return alt.LayerChart(
             data=inline_data(cells),
-            layer=layers,
+            layer=marks,
             width=alt.Step(CELL_WIDTH),
             height=alt.Step(CELL_HEIGHT),
             title=alt.Title(f"{row_name} by {col_name}: {COLOUR_CHOICES[colour_by]}",

@@ -1,4 +1,4 @@
-"""The measures panel: an HTML table of the measures, the chi-square test, warnings, cautions."""
+"""The measures panel: an HTML table of the measures, Pearson's X² test, warnings, cautions."""
 
 from __future__ import annotations
 
@@ -6,7 +6,7 @@ from collections.abc import Sequence
 
 import pandas as pd
 
-from rankfold import OrdinalTable, measure_label
+from rankfold import OrdinalTable, independence_label, measure_label
 
 from . import formatting
 
@@ -48,7 +48,7 @@ def measures_html(
     measures : pandas.DataFrame
         ``table.measures()``.
     tests : pandas.DataFrame
-        ``table.tests()``; the Pearson chi-square row is shown for contrast.
+        ``table.tests()``; the Pearson X² row is shown for contrast.
     warnings : sequence of str
         Sparse-cell warnings (``table.diagnostics().warnings``).
     left_out : float
@@ -77,10 +77,11 @@ def measures_html(
             for k in keys
         )
 
-    chi = tests.loc["pearson_chi_square"]
+    chi = tests.loc["pearson_x2"]
     chi_row = (
-        '<tr data-measure="pearson_chi_square"><th scope="row">Pearson chi-square</th>'
-        f'<td class="rankfold-estimate" data-measure="pearson_chi_square">'
+        '<tr data-measure="pearson_x2">'
+        f'<th scope="row">{formatting.text(independence_label("pearson_x2"))}</th>'
+        f'<td class="rankfold-estimate" data-measure="pearson_x2">'
         f"{formatting.estimate(chi.statistic)}</td><td>df = {formatting.amount(chi.df)}</td>"
         f"<td>{formatting.p_value(chi.p_value)}</td>"
         f'<td class="rankfold-note">{formatting.text(chi.note)}</td></tr>'
@@ -92,10 +93,11 @@ def measures_html(
         counted.append(f"{formatting.amount(table.n_missing)} records with a missing value dropped")
     if table.weight:
         counted.append(f"weighted by {formatting.text(table.weight)} ({table.weight_kind})")
-    if table.layer_name:
-        counted.append(f"pooled over the {len(table.layer_labels)} layers of "
-                       f"{formatting.text(table.layer_name)}: the association within layers can "
-                       "differ, even in sign (see the Layers tab)")
+    if table.control_name:
+        counted.append(f"pooled over the {len(table.control_labels)} levels of "
+                       f"{formatting.text(table.control_name)}: the association within each "
+                       "level can "
+                       "differ, even in sign (see the tab ‘Within each level’)")
     if shared:
         warnings = [f"Every measure above: {shared}.", *warnings]
     warning_html = "".join(f'<div class="rankfold-warning">{formatting.text(w)}</div>'

@@ -1,4 +1,4 @@
-"""Pickers for the row, column, layer and weight variables, and the swap button."""
+"""Pickers for the row, column, control and weight variables, and the swap button."""
 
 from __future__ import annotations
 
@@ -13,15 +13,15 @@ from rankfold.counting import MAX_NUMERIC_LEVELS
 if TYPE_CHECKING:
     from .render import Rendered
 
-__all__ = ["orderable_columns", "layer_columns", "weight_columns", "VariablePickers"]
+__all__ = ["orderable_columns", "control_columns", "weight_columns", "VariablePickers"]
 
-#: The value behind "none" in the layer and weight pickers. Not None: ipywidgets reads a
+#: The value behind "none" in the control and weight pickers. Not None: ipywidgets reads a
 #: Dropdown value of None as "nothing selected" and would then show the picker blank.
 _NONE = object()
 
 
 def _column(value: object) -> str | None:
-    """The column a layer or weight picker's value names (None for "none")."""
+    """The column a control or weight picker's value names (None for "none")."""
     return None if value is _NONE else value
 
 
@@ -60,8 +60,8 @@ def orderable_columns(
     return found
 
 
-def layer_columns(data: pd.DataFrame) -> list[str]:
-    """Columns that can serve as a layer: 2 to 30 distinct values, of any type.
+def control_columns(data: pd.DataFrame) -> list[str]:
+    """Columns that can serve as a control variable: 2 to 30 distinct values, of any type.
 
     Parameters
     ----------
@@ -71,8 +71,9 @@ def layer_columns(data: pd.DataFrame) -> list[str]:
     Returns
     -------
     list of str
-        In the frame's column order. A layer needs no order (text is sorted), but more than
-        :data:`rankfold.counting.MAX_NUMERIC_LEVELS` layers would give tables too small to read.
+        In the frame's column order. A control variable needs no order (text is sorted), but
+        more than
+        :data:`rankfold.counting.MAX_NUMERIC_LEVELS` levels would give tables too small to read.
     """
     return [name for name in data.columns
             if 2 <= data[name].nunique(dropna=True) <= MAX_NUMERIC_LEVELS]
@@ -87,9 +88,9 @@ def weight_columns(data: pd.DataFrame) -> list[str]:
 
 
 class VariablePickers:
-    """Dropdowns for the row, column, layer and weight variables, and a swap button.
+    """Dropdowns for the row, column, control and weight variables, and a swap button.
 
-    Choosing in one picker the variable the other one shows swaps them. The layer and weight
+    Choosing in one picker the variable the other one shows swaps them. The control and weight
     pickers offer "none" first; the weight kind says whether a weight counts identical units
     (frequency) or is a survey weight (sampling).
 
@@ -99,15 +100,16 @@ class VariablePickers:
         The columns offered for rows and columns (see :func:`orderable_columns`).
     propose : callable
         Takes a function from state to new state.
-    layers, weights : sequence of str
-        The columns offered as layer and as weight (see :func:`layer_columns` and
+    controls, weights : sequence of str
+        The columns offered as control variable and as weight (see :func:`control_columns` and
         :func:`weight_columns`).
     """
 
-    def __init__(self, columns: list[str], propose: Callable, layers: Sequence[str] = (),
+    def __init__(self, columns: list[str], propose: Callable, controls: Sequence[str] = (),
                  weights: Sequence[str] = ()) -> None:
-        self._row = widgets.Dropdown(options=columns, description="rows")
-        self._col = widgets.Dropdown(options=columns, description="columns")
+        wide = {"description_width": "initial"}
+        self._row = widgets.Dropdown(options=columns, description="down the side", style=wide)
+        self._col = widgets.Dropdown(options=columns, description="across the top", style=wide)
         self._swap = widgets.Button(description="swap ⇄", tooltip="Exchange rows and columns",
                                     layout=widgets.Layout(width="auto"))
         for widget, css in ((self._row, "rankfold-row-picker"), (self._col, "rankfold-col-picker"),
@@ -116,8 +118,8 @@ class VariablePickers:
         self._row.observe(lambda c: propose(lambda s: _pick(s, row=c["new"])), names="value")
         self._col.observe(lambda c: propose(lambda s: _pick(s, col=c["new"])), names="value")
         self._swap.on_click(lambda _: propose(lambda s: s.swapped()))
-        self._layer = widgets.Dropdown(options=[("none", _NONE), *((c, c) for c in layers)],
-                                       description="layer")
+        self._control = widgets.Dropdown(options=[("none", _NONE), *((c, c) for c in controls)],
+                                       description="control for", style=wide)
         self._weight = widgets.Dropdown(options=[("none", _NONE), *((c, c) for c in weights)],
                                         description="weight")
         self._kind = widgets.Dropdown(
@@ -126,11 +128,11 @@ class VariablePickers:
             description="weights are",
             style={"description_width": "initial"},
         )
-        for widget, css in ((self._layer, "rankfold-layer-picker"),
+        for widget, css in ((self._control, "rankfold-control-picker"),
                             (self._weight, "rankfold-weight-picker"),
                             (self._kind, "rankfold-weight-kind")):
             widget.add_class(css)
-        self._layer.observe(lambda c: propose(lambda s: s.with_roles(layer=_column(c["new"]))),
+        self._control.observe(lambda c: propose(lambda s: s.with_roles(control=_column(c["new"]))),
                             names="value")
         # no weight means no weight kind: back to the default, which needs no column
         self._weight.observe(lambda c: propose(lambda s: s.with_roles(
@@ -140,7 +142,7 @@ class VariablePickers:
         self._kind.observe(lambda c: propose(lambda s: s.with_roles(weight_kind=c["new"])),
                            names="value")
         self.widget = widgets.HBox(
-            [self._row, self._col, self._swap, self._layer, self._weight, self._kind],
+            [self._row, self._col, self._swap, self._control, self._weight, self._kind],
             layout=widgets.Layout(flex_flow="row wrap"),
         )
         self.widget.add_class("rankfold-pickers")
@@ -150,7 +152,7 @@ class VariablePickers:
         state = rendered.state
         self._row.value = state.row
         self._col.value = state.col
-        for picker, column in ((self._layer, state.layer), (self._weight, state.weight)):
+        for picker, column in ((self._control, state.control), (self._weight, state.weight)):
             value = _NONE if column is None else column
             if value not in [v for _, v in picker.options]:  # given to explore() directly
                 picker.options = [*picker.options, (value, value)]

@@ -50,9 +50,9 @@ class TableCache:
         if key not in self._tables and isinstance(self.data, OrdinalTable):
             self._tables[key] = fixed_table(self.data, state)
         if key not in self._tables:
-            roles = (state.row, state.col, state.layer)
+            roles = (state.row, state.col, state.control)
             self._tables[key] = rankfold.table(
-                self.data, state.row, state.col, layer=state.layer, weight=state.weight,
+                self.data, state.row, state.col, control=state.control, weight=state.weight,
                 weight_kind=state.weight_kind,
                 order={name: list(labels) for name, labels in state.order if name in roles},
             )

@@ -16,10 +16,10 @@ __all__ = ["Edit", "ExplorerState", "COLOUR_CHOICES"]
 #: Quantities the heatmap can colour cells by, with their display names.
 COLOUR_CHOICES = {
     "count": "counts",
-    "row_percent": "row %",
-    "col_percent": "column %",
-    "adjusted_residual": "adjusted residuals",
-    "pair_contribution": "pair contribution",
+    "row_percent": "% within its row",
+    "col_percent": "% within its column",
+    "adjusted_residual": "adjusted residual (Haberman)",
+    "pair_contribution": "pushes association up / down",
 }
 
 _KINDS = ("merge", "exclude", "reorder")
@@ -73,8 +73,8 @@ class ExplorerState:
     ----------
     row, col : str
         The row and column variables.
-    layer, weight : str or None
-        Layer and weight columns, passed to :func:`rankfold.table`.
+    control, weight : str or None
+        Control variable and weight columns, passed to :func:`rankfold.table`.
     weight_kind : {'frequency', 'sampling'}
         How the weights are read, passed to :func:`rankfold.table`.
     order : tuple of (column, labels) pairs
@@ -89,7 +89,7 @@ class ExplorerState:
 
     row: str
     col: str
-    layer: str | None = None
+    control: str | None = None
     weight: str | None = None
     weight_kind: str = "frequency"
     order: tuple = ()
@@ -106,7 +106,7 @@ class ExplorerState:
     @property
     def table_key(self) -> tuple:
         """What the raw count depends on: one cached table per distinct key."""
-        return (self.row, self.col, self.layer, self.weight, self.weight_kind, self.order)
+        return (self.row, self.col, self.control, self.weight, self.weight_kind, self.order)
 
     def with_variables(self, row: str, col: str) -> ExplorerState:
         """New variables; edits of variables no longer shown are dropped, the rest kept."""
@@ -131,13 +131,13 @@ class ExplorerState:
         return replace(self, edits=())
 
     def with_roles(self, **roles: str | None) -> ExplorerState:
-        """New ``layer``, ``weight`` or ``weight_kind``; the coding edits and view choices stay
-        (edits recode the row and column variables, which every layer shares).
+        """New ``control``, ``weight`` or ``weight_kind``; the coding edits and view choices stay
+        (edits recode the row and column variables, which every level shares).
 
         Parameters
         ----------
         **roles : str or None
-            Any of ``layer``, ``weight`` (column names, None for none) and ``weight_kind``.
+            Any of ``control``, ``weight`` (column names, None for none) and ``weight_kind``.
 
         Returns
         -------
@@ -145,9 +145,9 @@ class ExplorerState:
             A copy with the new roles (states are immutable); a keyword other than these three
             raises ValueError.
         """
-        unknown = sorted(set(roles) - {"layer", "weight", "weight_kind"})
+        unknown = sorted(set(roles) - {"control", "weight", "weight_kind"})
         if unknown:
-            raise ValueError(f"Only layer, weight and weight_kind are roles; got {unknown}.")
+            raise ValueError(f"Only control, weight and weight_kind are roles; got {unknown}.")
         return replace(self, **roles)
 
     def with_view(self, **choices: str | tuple[Hashable, Hashable] | None) -> ExplorerState:

@@ -133,7 +133,7 @@ def swept_codings(table: OrdinalTable, kept: tuple = (),
     -------
     SweptCodings
     """
-    measures = DEFAULT_SWEEP_MEASURES + (("partial_gamma",) if table.layer_name else ())
+    measures = DEFAULT_SWEEP_MEASURES + (("partial_gamma",) if table.control_name else ())
     frame = rankfold.sweep(table, measures=measures, progress=progress)
     return SweptCodings(table, kept, frame, rankfold.suggest_collapsing(table))
 
@@ -246,12 +246,12 @@ def sweep_chart(
     tooltip = [alt.Tooltip("rows:N", title=row_name), alt.Tooltip("cols:N", title=col_name),
                alt.Tooltip("estimate:Q", format=".4f")]
     base = alt.Chart()
-    layers = []
+    parts = []
     points = len(frame) <= POINT_LIMIT
     if points:
         data = _point_data(frame, labels, x, meets, marks)
         pick = alt.selection_point(name=CLICK, fields=["row_cuts", "col_cuts"], on="click")
-        layers.append(
+        parts.append(
             base.transform_filter("datum.kind == 'coding' && isValid(datum.estimate)")
             .mark_circle(size=22, opacity=0.6)
             .encode(x=x_enc, y=alt.Y("estimate:Q", title=None, scale=y_scale), color=colour,
@@ -261,16 +261,16 @@ def sweep_chart(
     else:
         data = _range_data(frame, labels, x, meets, marks)
         ranged = base.transform_filter("datum.kind == 'range' && isValid(datum.low)")
-        layers.append(ranged.mark_rule(strokeWidth=1.5).encode(
+        parts.append(ranged.mark_rule(strokeWidth=1.5).encode(
             x=x_enc, y=alt.Y("low:Q", title=None, scale=y_scale), y2="high:Q", color=colour))
-        layers.append(ranged.mark_bar(size=9, opacity=0.8).encode(
+        parts.append(ranged.mark_bar(size=9, opacity=0.8).encode(
             x=x_enc, y=alt.Y("lower_quartile:Q", scale=y_scale), y2="upper_quartile:Q",
             color=colour,
             tooltip=[alt.Tooltip("codings:Q", title="codings"),
                      alt.Tooltip("low:Q", format=".3f"), alt.Tooltip("median:Q", format=".3f"),
                      alt.Tooltip("high:Q", format=".3f")]))
     role_scale = {"domain": list(ROLES)}
-    layers.append(
+    parts.append(
         base.transform_filter("datum.kind == 'mark' && isValid(datum.estimate)")
         .mark_point(filled=False, size=170, strokeWidth=2.2)
         .encode(x=x_enc, y=alt.Y("estimate:Q", scale=y_scale),
@@ -282,7 +282,7 @@ def sweep_chart(
                                                 range=[s for _, s in ROLES.values()])),
                 tooltip=[alt.Tooltip("role:N", title="coding"), *tooltip])
     )
-    chart = alt.layer(*layers, data=alt.Data(values=_records(data)), width=460, height=120)
+    chart = alt.layer(*parts, data=alt.Data(values=_records(data)), width=460, height=120)
     if points:
         # Fold the estimate columns into (key, estimate) rows, then name each key; labels stay
         # out of field names, where quotes and dots would need escaping.
@@ -331,9 +331,10 @@ def summary_html(swept: SweptCodings, current: tuple[int, int] | None) -> str:
     if current is None:
         notes.append("The current coding is not one of these: it leaves out or reorders "
                      "categories that were merged.")
-    if table.layer_name:
-        notes.append("Measures and the rule use the table pooled over layers; partial gamma "
-                     "holds the layers fixed.")
+    if table.control_name:
+        notes.append("Measures and the rule use the table pooled over the control variable's "
+                     "levels; partial gamma "
+                     "compares units only within a level.")
     if table.weight_kind == "sampling":
         notes.append("With sampling weights the rule counts respondents (records) per cell, "
                      "not weighted totals.")

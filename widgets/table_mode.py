@@ -23,7 +23,7 @@ from rankfold import OrdinalTable
 from rankfold.sources import engine_name, schema
 
 from . import formatting
-from .pickers import layer_columns, orderable_columns, weight_columns
+from .pickers import control_columns, orderable_columns, weight_columns
 from .state import ExplorerState
 
 __all__ = ["Offer", "offer_for", "fixed_table", "has_records", "BackgroundCount"]
@@ -51,16 +51,16 @@ class Offer:
     ----------
     columns : list of str
         Every column.
-    orderable, layers, weights : list of str
-        Columns offered for rows and columns, as layer, and as weight.
+    orderable, controls, weights : list of str
+        Columns offered for rows and columns, as control variable, and as weight.
     fixed : dict
-        Roles a ready table fixes (``row``, ``col``, ``layer``, ``weight``, ``weight_kind``);
+        Roles a ready table fixes (``row``, ``col``, ``control``, ``weight``, ``weight_kind``);
         empty for records.
     """
 
     columns: list[str]
     orderable: list[str]
-    layers: list[str]
+    controls: list[str]
     weights: list[str]
     fixed: dict = field(default_factory=dict)
 
@@ -73,7 +73,7 @@ def offer_for(data: Any, order: Mapping[str, Sequence[Hashable]] | None = None) 
     data : pandas.DataFrame, OrdinalTable, or a source of :func:`rankfold.table`
         For a source only the column types are read (:func:`rankfold.sources.schema`), so a
         numeric column is offered whatever its number of values (counting says if there are
-        too many) and any column but a float one is offered as a layer.
+        too many) and any column but a float one is offered as a control variable.
     order : mapping, optional
         Orders given for text columns.
 
@@ -87,18 +87,18 @@ def offer_for(data: Any, order: Mapping[str, Sequence[Hashable]] | None = None) 
         If ``data`` is none of these (the message lists what is accepted).
     """
     if isinstance(data, OrdinalTable):
-        fixed = {"row": data.row_name, "col": data.col_name, "layer": data.layer_name,
+        fixed = {"row": data.row_name, "col": data.col_name, "control": data.control_name,
                  "weight": data.weight, "weight_kind": data.weight_kind or "frequency"}
         named = [data.row_name, data.col_name]
-        return Offer(named, named, [data.layer_name] if data.layer_name else [],
+        return Offer(named, named, [data.control_name] if data.control_name else [],
                      [data.weight] if data.weight else [], fixed)
     if has_records(data):
-        return Offer(list(data.columns), orderable_columns(data, order), layer_columns(data),
+        return Offer(list(data.columns), orderable_columns(data, order), control_columns(data),
                      weight_columns(data))
     types = schema(data)
-    layers = [name for name in types.columns
+    controls = [name for name in types.columns
               if not pd.api.types.is_float_dtype(types[name].dtype)]
-    return Offer(list(types.columns), orderable_columns(types, order), layers,
+    return Offer(list(types.columns), orderable_columns(types, order), controls,
                  weight_columns(types))
 
 
@@ -109,12 +109,13 @@ def fixed_table(table: OrdinalTable, state: ExplorerState) -> OrdinalTable:
     Raises
     ------
     ValueError
-        If the state asks for other variables, a layer or weight the table does not have.
+        If the state asks for other variables, a control variable or weight the table does not have.
     """
     kind = table.weight_kind or "frequency"
-    if (state.layer, state.weight, state.weight_kind) != (table.layer_name, table.weight, kind):
+    if (state.control, state.weight, state.weight_kind) != (table.control_name, table.weight, kind):
         raise ValueError(
-            "This explorer was opened on a table of counts, whose layer and weight are fixed; "
+            "This explorer was opened on a table of counts, whose control variable and weight "
+            "are fixed; "
             "to choose others, open it on the records (a DataFrame, files or a Dask frame)."
         )
     if (state.row, state.col) == (table.row_name, table.col_name):
@@ -165,7 +166,7 @@ class BackgroundCount:
         with self._lock:
             self._latest += 1
             ticket = self._latest
-        what = f"{state.row} × {state.col}" + (f" by {state.layer}" if state.layer else "")
+        what = f"{state.row} × {state.col}" + (f" by {state.control}" if state.control else "")
         self.widget.value = (
             f'{_BAR_STYLE}<div role="status" aria-live="polite">Counting '
             f"{formatting.text(what)} with {_ENGINE_NAMES[engine_name(data)]}; the notebook "

@@ -119,7 +119,7 @@ def test_quickstart_explorer_in_the_browser(open_notebook, tmp_path, request) ->
         reset.click()
     expect(explorer.locator(".rankfold-step-list")).to_have_count(0)
     explorer.locator(".rankfold-colour-by button", has_text=re.compile(r"^counts$")).click()
-    expect(explorer.locator(".rankfold-layer-picker select")).to_have_value("none")
+    expect(explorer.locator(".rankfold-control-picker select")).to_have_value("none")
     expect(explorer.locator(".rankfold-weight-picker select")).to_have_value("none")
 
     # Pick another column variable in the page's dropdown.
@@ -128,7 +128,7 @@ def test_quickstart_explorer_in_the_browser(open_notebook, tmp_path, request) ->
     offered = col_picker.locator("option").evaluate_all("os => os.map((o) => o.value)")
     col_name = next(x for x in offered if x not in (row_name, col_picker.input_value()))
     col_picker.select_option(col_name)
-    expect(explorer.locator(".rankfold-editor-cols")).to_contain_text(f"columns: {col_name}")
+    expect(explorer.locator(".rankfold-editor-cols")).to_contain_text(f"across the top: {col_name}")
 
     # Merge its last two categories with the category editor's toggle.
     df = rankfold.demo.transit_survey()  # the quickstart's data
@@ -171,7 +171,7 @@ def test_quickstart_explorer_in_the_browser(open_notebook, tmp_path, request) ->
     assert estimate_on_page(explorer, "somers_d_col_given_row") == pytest.approx(
         stats.somersd(counts).statistic, abs=5e-5  # scipy.stats: a table gives D(column | row)
     )
-    assert estimate_on_page(explorer, "pearson_chi_square") == pytest.approx(
+    assert estimate_on_page(explorer, "pearson_x2") == pytest.approx(
         stats.chi2_contingency(counts, correction=False).statistic, abs=5e-5  # scipy.stats
     )
 

@@ -1,10 +1,10 @@
-"""The layers view: one heatmap per layer on one shared colour scale, and the measures within
-layers (each layer's gamma beside partial gamma, with the homogeneity and CMH tests).
+"""The within-levels view: one heatmap per level on one shared colour scale, and the measures within
+each level (each level's gamma beside partial gamma, with the homogeneity and CMH tests).
 
-All numbers come from the core (:meth:`rankfold.OrdinalTable.layer_table`,
-:meth:`~rankfold.OrdinalTable.layer_measures`, :meth:`~rankfold.OrdinalTable.partial_measures`,
+All numbers come from the core (:meth:`rankfold.OrdinalTable.control_table`,
+:meth:`~rankfold.OrdinalTable.control_measures`, :meth:`~rankfold.OrdinalTable.partial_measures`,
 :meth:`~rankfold.OrdinalTable.tests`); the heatmaps are :func:`heatmap_chart` drawn once per
-layer.
+level.
 """
 
 from __future__ import annotations
@@ -28,34 +28,34 @@ from .heatmap import CELL_WIDTH, heatmap_chart
 if TYPE_CHECKING:
     from .render import Rendered
 
-__all__ = ["layer_heatmaps", "layer_measures_html", "LayerSection", "LAYER_CAUTIONS"]
+__all__ = ["level_heatmaps", "within_levels_html", "WithinLevelsSection", "CONTROL_CAUTIONS"]
 
-LAYER_CAUTIONS = (
+CONTROL_CAUTIONS = (
     "Holding one variable fixed removes its influence, not that of anything else: the "
-    "association within layers is still not evidence of a cause.",
-    "Pick the layer variable from how the data arose, before looking at these numbers; "
-    "trying layers until one gives the hoped-for answer inflates false findings.",
-    "Small layers give wide intervals; check each layer's n.",
+    "association within each level is still not evidence of a cause.",
+    "Pick the control variable from how the data arose, before looking at these numbers; "
+    "trying control variables until one gives the hoped-for answer inflates false findings.",
+    "Small levels give wide intervals; check each level's n.",
 )
-#: Widest grid of layer heatmaps, in pixels, before the next heatmap goes below (about the
+#: Widest grid of heatmaps (one per level), in pixels, before the next heatmap goes below (about the
 #: width a notebook leaves for the explorer's tabs).
 GRID_WIDTH = 900
 _ROW_LABELS_WIDTH = 180  # row labels and axis title beside each heatmap
 
-_NO_LAYER = (
-    '<p class="rankfold-hint">Choose a layer variable above to see the table and the '
+_NO_CONTROL = (
+    '<p class="rankfold-hint">Choose a variable to control for above to see the table and the '
     "association within each of its categories.</p>"
 )
 
 
-def layer_heatmaps(table: OrdinalTable, colour_by: str,
+def level_heatmaps(table: OrdinalTable, colour_by: str,
                    columns: int | None = None) -> alt.ConcatChart:
-    """One heatmap per layer, all on the same colour scale.
+    """One heatmap per level, all on the same colour scale.
 
     Parameters
     ----------
     table : OrdinalTable
-        A layered table.
+        A table with a control variable.
     colour_by : str
         A key of :data:`rankfold.widgets.state.COLOUR_CHOICES`.
     columns : int, optional
@@ -65,12 +65,12 @@ def layer_heatmaps(table: OrdinalTable, colour_by: str,
     Returns
     -------
     altair.ConcatChart
-        Titled by layer, with one shared colour scale (the largest absolute value over all
-        layers), so that equal colours mean equal values in every layer. Clicking a cell sets
+        Titled by level, with one shared colour scale (the largest absolute value over all
+        levels), so that equal colours mean equal values in every level. Clicking a cell sets
         the point selection ``"cell"`` to its positions, as in :func:`heatmap_chart`.
     """
-    parts = [(label, rankfold.cell_figures(table.layer_table(label)))
-             for label in table.layer_labels]
+    parts = [(label, rankfold.cell_figures(table.control_table(label)))
+             for label in table.control_labels]
     if columns is None:
         width = CELL_WIDTH * (len(table.col_labels) + 1) + _ROW_LABELS_WIDTH  # + totals column
         columns = max(1, GRID_WIDTH // width)
@@ -83,7 +83,7 @@ def layer_heatmaps(table: OrdinalTable, colour_by: str,
         panel.background = alt.Undefined  # set once on the whole grid (concat requires it)
         weighted = f" (sum of the weight {table.weight})" if table.weight else ""
         panel.title = alt.Title(
-            f"{table.layer_name} = {label}",
+            f"{table.control_name} = {label}",
             subtitle=f"n = {formatting.amount(figures['count'].sum())}{weighted}")
         panels.append(panel)
     with warnings.catch_warnings():
@@ -109,91 +109,93 @@ def _row(key: str, label: str, n: float | None, record: pd.Series, kind: str, no
 def _test_line(key: str, label: str, record: pd.Series) -> str:
     df = "" if math.isnan(record.df) else f", df = {record.df:.0f}"
     return (
-        f'<p class="rankfold-layer-test" data-test="{key}">{formatting.text(label)}: '
+        f'<p class="rankfold-within-test" data-test="{key}">{formatting.text(label)}: '
         f"statistic = {formatting.estimate(record.statistic)}{df}, "
         f"p = {formatting.p_value(record.p_value)}"
         f' <span class="rankfold-hint">{formatting.text(record.note)}</span></p>'
     )
 
 
-def layer_measures_html(table: OrdinalTable, measures: pd.DataFrame, tests: pd.DataFrame,
+def within_levels_html(table: OrdinalTable, measures: pd.DataFrame, tests: pd.DataFrame,
                         confidence: float = 0.95) -> str:
-    """Gamma in each layer beside partial gamma and the pooled gamma, with the layer tests.
+    """Gamma in each level beside partial gamma and the pooled gamma, with their tests.
 
     Parameters
     ----------
     table : OrdinalTable
-        A layered table.
+        A table with a control variable.
     measures, tests : pandas.DataFrame
         ``table.measures()`` (pooled; its gamma is shown for contrast) and ``table.tests()``
-        (with the ``gamma_homogeneity`` and ``cmh_correlation`` rows of a layered table).
+        (with the ``gamma_homogeneity`` and ``cmh_correlation`` rows of a table with a control
+        variable).
     confidence : float
         Level of the intervals.
 
     Returns
     -------
     str
-        HTML: a ``table.rankfold-layer-measures`` whose rows carry ``data-layer`` (one per
-        layer) or ``data-measure`` (``partial_gamma``, ``gamma`` for the pooled value), the
-        estimate in ``td.rankfold-estimate`` to 4 decimals; ``p.rankfold-layer-test`` lines
+        HTML: a ``table.rankfold-within-measures`` whose rows carry ``data-level`` (one per
+        level) or ``data-measure`` (``partial_gamma``, ``gamma`` for the pooled value), the
+        estimate in ``td.rankfold-estimate`` to 4 decimals; ``p.rankfold-within-test`` lines
         with ``data-test``; and ``ul.rankfold-cautions``. A note part every row shares is
         written once below the table, in ``p.rankfold-warning``.
     """
-    per_layer = table.layer_measures(confidence).xs("gamma", level=1)
-    listed = [(str(label), str(label), float(cells.sum()), per_layer.loc[label], "layer")
-              for label, cells in zip(table.layer_labels, table.cells, strict=True)]
+    per_level = table.control_measures(confidence).xs("gamma", level=1)
+    listed = [(str(label), str(label), float(cells.sum()), per_level.loc[label], "level")
+              for label, cells in zip(table.control_labels, table.cells, strict=True)]
     listed += [
-        ("partial_gamma", "partial gamma (within layers)", table.n,
+        ("partial_gamma", "partial gamma (within levels)", table.n,
          table.partial_measures(confidence).loc["partial_gamma"], "measure"),
-        ("gamma", "pooled gamma (layers ignored)", table.n, measures.loc["gamma"], "measure"),
+        ("gamma", "pooled gamma (control variable ignored)", table.n, measures.loc["gamma"],
+         "measure"),
     ]
     shared, notes = formatting.shared_note([record.note for *_, record, _ in listed])
     rows = "".join(_row(*row, note) for row, note in zip(listed, notes, strict=True))
     shared_html = (f'<p class="rankfold-warning">Every row above: {formatting.text(shared)}.</p>'
                    if shared else "")
     lines = (
-        _test_line("gamma_homogeneity", "Same gamma in every layer? (homogeneity check)",
+        _test_line("gamma_homogeneity", "Same gamma in every level? (homogeneity check)",
                    tests.loc["gamma_homogeneity"])
-        + _test_line("cmh_correlation", "Association within layers (CMH correlation test)",
+        + _test_line("cmh_correlation", "Association within levels (CMH correlation test)",
                      tests.loc["cmh_correlation"])
     )
-    cautions = "".join(f"<li>{formatting.text(c)}</li>" for c in LAYER_CAUTIONS)
+    cautions = "".join(f"<li>{formatting.text(c)}</li>" for c in CONTROL_CAUTIONS)
     return (
-        '<div class="rankfold-layer-panel"><table class="rankfold-layer-measures"><thead><tr>'
-        f"<th>gamma by {formatting.text(table.layer_name)}</th><th>n</th><th>estimate</th>"
+        '<div class="rankfold-within-panel"><table class="rankfold-within-measures"><thead><tr>'
+        f"<th>gamma by {formatting.text(table.control_name)}</th><th>n</th><th>estimate</th>"
         f"<th>{confidence:.0%} interval</th><th>p</th><th>note</th></tr></thead><tbody>"
         + rows + "</tbody></table>" + shared_html + lines
         + f'<ul class="rankfold-cautions">{cautions}</ul></div>'
     )
 
 
-class LayerSection:
-    """The layers tab: measures within layers above one heatmap per layer.
+class WithinLevelsSection:
+    """The within-levels tab: measures within each level above one heatmap per level.
 
     Built like every entry of :data:`rankfold.widgets.explorer.SECTIONS`, from ``propose``
-    and ``notify``; a click on a cell of any layer chooses that cell for the pair view.
+    and ``notify``; a click on a cell of any level chooses that cell for the pair view.
     """
 
-    title = "Layers"
+    title = "Within each level"
 
     def __init__(self, propose: Callable, notify: Callable) -> None:
         self._propose = propose
         self._rendered = None
-        self._numbers = widgets.HTML(_NO_LAYER)
-        self._numbers.add_class("rankfold-layer-measures-box")
-        self._pane = ChartPane("rankfold-layer-heatmaps", on_click=self._clicked)
+        self._numbers = widgets.HTML(_NO_CONTROL)
+        self._numbers.add_class("rankfold-within-measures-box")
+        self._pane = ChartPane("rankfold-within-heatmaps", on_click=self._clicked)
         self.widget = widgets.VBox([self._numbers, self._pane.widget])
 
     def show(self, rendered: Rendered) -> None:
         """Display the rendered state (see :class:`rankfold.widgets.render.Rendered`)."""
         self._rendered = rendered
         table = rendered.table
-        if table.layer_name is None:
-            self._numbers.value = _NO_LAYER
+        if table.control_name is None:
+            self._numbers.value = _NO_CONTROL
             self._pane.show(None)
             return
-        self._numbers.value = layer_measures_html(table, rendered.measures, rendered.tests)
-        self._pane.show(layer_heatmaps(table, rendered.state.colour_by))
+        self._numbers.value = within_levels_html(table, rendered.measures, rendered.tests)
+        self._pane.show(level_heatmaps(table, rendered.state.colour_by))
 
     def _clicked(self, point: dict) -> None:
         cell = self._rendered.cell_labels(point)

@@ -1,9 +1,11 @@
-"""Layered tables: per-layer counts and measures, partial gamma, homogeneity and the CMH test.
+"""Tables with a control variable: per-level counts and measures, partial gamma, homogeneity
+and the CMH test.
 
-A layered table holds one I x J table per category of a third variable, ``cells`` of shape
-(K, I, J). Holding the layer fixed means comparing units only with units of the same layer:
-pairs are formed within layers, and layers are treated as independent samples (independent
-multinomials for counts; with sampling weights, each layer's records as a with-replacement
+A table with a control variable holds one I x J table per category (level) of a third
+variable, ``cells`` of shape (K, I, J). Controlling for it means comparing units only with
+units of the same level: pairs are formed within levels, and levels are treated as independent
+samples (independent
+multinomials for counts; with sampling weights, each level's records as a with-replacement
 sample of their own).
 """
 
@@ -28,148 +30,149 @@ if TYPE_CHECKING:
 __all__ = [
     "cmh_correlation",
     "gamma_homogeneity",
-    "layer_counts",
-    "layer_measures",
-    "layer_tests",
+    "control_counts",
+    "control_measures",
+    "control_tests",
     "partial_gamma_arrays",
     "partial_measures",
-    "single_layer",
+    "single_level",
 ]
 
 
-def _require_layers(table: OrdinalTable, what: str) -> None:
-    if table.layer_name is None:
+def _require_control(table: OrdinalTable, what: str) -> None:
+    if table.control_name is None:
         raise ValueError(
-            f"{what} needs a layered table; this one has no layer variable. Build it with "
-            "rankfold.table(df, row, col, layer='your_column')."
+            f"{what} needs a table with a control variable; this one has none. Build it with "
+            "rankfold.table(df, row, col, control='your_column')."
         )
 
 
-def _layer_sampling(table: OrdinalTable) -> Sampling:
-    """Per-layer variance information: batch axis = layers."""
+def _level_sampling(table: OrdinalTable) -> Sampling:
+    """Per-level variance information: batch axis = levels."""
     if table.squared_weights is None:
         return Sampling()
     return Sampling(table.squared_weights, table.records.sum(axis=(-2, -1)))
 
 
-def _layer_index(table: OrdinalTable, inner: Sequence, inner_name: str) -> pd.MultiIndex:
+def _level_index(table: OrdinalTable, inner: Sequence, inner_name: str) -> pd.MultiIndex:
     return pd.MultiIndex.from_product(
-        [pd.Index(list(table.layer_labels), dtype=object), pd.Index(list(inner), dtype=object)],
-        names=[table.layer_name, inner_name],
+        [pd.Index(list(table.control_labels), dtype=object), pd.Index(list(inner), dtype=object)],
+        names=[table.control_name, inner_name],
     )
 
 
-def layer_counts(table: OrdinalTable) -> pd.DataFrame:
-    """The table of each layer, stacked.
+def control_counts(table: OrdinalTable) -> pd.DataFrame:
+    """The table of each level, stacked.
 
     Parameters
     ----------
     table : OrdinalTable
-        A layered table.
+        A table with a control variable.
 
     Returns
     -------
     pandas.DataFrame
-        Index ``(layer, row)`` (a MultiIndex named after the two variables), one column per
-        column category; ``.xs(label, level=0)`` gives one layer's table.
+        Index ``(level, row)`` (a MultiIndex named after the two variables), one column per
+        column category; ``.xs(label, level=0)`` gives one level's table.
     """
-    _require_layers(table, "layer_counts")
+    _require_control(table, "control_counts")
     n_k, n_i, n_j = table.cells.shape
     return pd.DataFrame(
         table.cells.reshape(n_k * n_i, n_j),
-        index=_layer_index(table, table.row_labels, table.row_name),
+        index=_level_index(table, table.row_labels, table.row_name),
         columns=pd.Index(list(table.col_labels), name=table.col_name, dtype=object),
     )
 
 
-def single_layer(table: OrdinalTable, label: Hashable) -> OrdinalTable:
-    """One layer of a layered table as a table of its own.
+def single_level(table: OrdinalTable, label: Hashable) -> OrdinalTable:
+    """One level of a table with a control variable as a table of its own.
 
     Parameters
     ----------
     table : OrdinalTable
-        A layered table.
+        A table with a control variable.
     label : label
-        One of ``table.layer_labels``.
+        One of ``table.control_labels``.
 
     Returns
     -------
     OrdinalTable
-        Without a layer; counts, sampling-weight sums and steps of that layer only. Its
+        Without a level; counts, sampling-weight sums and steps of that level only. Its
         :meth:`~OrdinalTable.to_code` rebuilds it from counts (the weights' squares are not
         carried into that code).
     """
     from .ordinal_table import Origin  # the table module imports this one
 
-    _require_layers(table, "layer_table")
-    if label not in table.layer_labels:
+    _require_control(table, "control_table")
+    if label not in table.control_labels:
         raise ValueError(
-            f"{label!r} is not a category of the layer {table.layer_name!r}; its categories "
-            f"are {list(table.layer_labels)}."
+            f"{label!r} is not a category of the control variable {table.control_name!r}; "
+            "its categories "
+            f"are {list(table.control_labels)}."
         )
-    k = table.layer_labels.index(label)
+    k = table.control_labels.index(label)
 
     def pick(cells: np.ndarray | None) -> np.ndarray | None:
         return None if cells is None else cells[k : k + 1]
 
     return replace(
         table, cells=pick(table.cells), squared_weights=pick(table.squared_weights),
-        records=pick(table.records), layer_name=None, layer_labels=(None,),
+        records=pick(table.records), control_name=None, control_labels=(None,),
         origin=Origin("counts"), initial_steps=len(table.steps),
     )
 
 
-def layer_measures(table: OrdinalTable, confidence: float = 0.95) -> pd.DataFrame:
-    """The measures of every layer's own table, stacked.
+def control_measures(table: OrdinalTable, confidence: float = 0.95) -> pd.DataFrame:
+    """The measures of every level's own table, stacked.
 
     Parameters
     ----------
     table : OrdinalTable
-        A layered table.
+        A table with a control variable.
     confidence : float
         Confidence level of the intervals.
 
     Returns
     -------
     pandas.DataFrame
-        Index ``(layer, measure)``; columns and meaning as :meth:`OrdinalTable.measures`
-        applied to each layer alone (with sampling weights, each layer's own records and
-        effective size). ``.xs(label, level=0)`` gives one layer's measures.
+        Index ``(level, measure)``; columns and meaning as :meth:`OrdinalTable.measures`
+        applied to each level alone (with sampling weights, each level's own records and
+        effective size). ``.xs(label, level=0)`` gives one level's measures.
     """
-    _require_layers(table, "layer_measures")
-    frames = [single_layer(table, label).measures(confidence) for label in table.layer_labels]
+    _require_control(table, "control_measures")
+    frames = [single_level(table, label).measures(confidence) for label in table.control_labels]
     return pd.concat(
-        frames, keys=pd.Index(list(table.layer_labels), dtype=object),
-        names=[table.layer_name, "measure"],
+        frames, keys=pd.Index(list(table.control_labels), dtype=object),
+        names=[table.control_name, "measure"],
     )
 
 
 def partial_gamma_arrays(
     cells: np.ndarray, sampling: Sampling | None = None
 ) -> dict[str, np.ndarray]:
-    """Partial gamma of layered tables with delta-method standard errors.
+    """Partial gamma of tables with a control variable with delta-method standard errors.
 
     Parameters
     ----------
     cells : ndarray, shape (..., K, I, J)
-        Counts (or sums of weights) of K layers; leading axes are a batch.
+        Counts (or sums of weights) of K levels; leading axes are a batch.
     sampling : Sampling, optional
-        Survey-weight information per layer: ``squared`` of shape (..., K, I, J) and
-        ``records`` of shape (..., K). Independent multinomials within layers by default.
+        Survey-weight information per level: ``squared`` of shape (..., K, I, J) and
+        ``records`` of shape (..., K). Independent multinomials within levels by default.
 
     Returns
     -------
     dict
         ``estimate``, ``std_error`` and ``std_error_null``, each of the batch shape; NaN where
-        no pair within a layer is untied on both variables.
+        no pair within a level is untied on both variables.
 
     Notes
     -----
     With ``P = sum_k P_k`` and ``Q = sum_k Q_k`` the concordant and discordant pairs formed
-    within layers, partial gamma is ``(P - Q) / (P + Q)`` (Davis 1967). Its derivative with
-    respect to a count of layer k is ``g_ijk = 4 (Q C_ijk - P D_ijk) / (P + Q)^2``, with
-    ``C_ijk``, ``D_ijk`` the within-layer concordance of :func:`cell_concordance`. Layers are
-    independent samples, so the variance is the sum over layers of the one-table rule of
+    within levels, partial gamma is ``(P - Q) / (P + Q)`` (Davis 1967). Its derivative with
+    respect to a count of level k is ``g_ijk = 4 (Q C_ijk - P D_ijk) / (P + Q)^2``, with
+    ``C_ijk``, ``D_ijk`` the within-level concordance of :func:`cell_concordance`. Levels are
+    independent samples, so the variance is the sum over levels of the one-table rule of
     :func:`rankfold.ordinal_measures.delta_variance`,
     ``Var = sum_k [sum_ij n_ijk g_ijk^2 - (sum_ij n_ijk g_ijk)^2 / n_k]`` (the delta method
     for independent samples, Bishop, Fienberg & Holland 1975, ch. 14). The null standard
@@ -190,7 +193,7 @@ def partial_gamma_arrays(
     P = (n * conc).sum(axis=(-3, -2, -1))
     Q = (n * disc).sum(axis=(-3, -2, -1))
     untied = P + Q
-    occupied = n.sum(axis=(-2, -1)) > 0  # an empty layer adds nothing (and would give 0/0)
+    occupied = n.sum(axis=(-2, -1)) > 0  # an empty level adds nothing (and would give 0/0)
     with np.errstate(invalid="ignore", divide="ignore"):
         estimate = np.where(untied > 0, (P - Q) / untied, np.nan)
         scale = np.where(untied > 0, untied, np.nan)[..., None, None, None]
@@ -198,8 +201,8 @@ def partial_gamma_arrays(
         grad_null = 2 * (conc - disc) / scale
 
     def summed(gradient: np.ndarray) -> np.ndarray:
-        per_layer = delta_variance(n, gradient, sampling)
-        return np.sqrt(np.where(occupied, per_layer, 0.0).sum(axis=-1))
+        per_level = delta_variance(n, gradient, sampling)
+        return np.sqrt(np.where(occupied, per_level, 0.0).sum(axis=-1))
 
     se, se_null = summed(grad), summed(grad_null)
     undefined = np.isnan(estimate)
@@ -211,12 +214,12 @@ def partial_gamma_arrays(
 
 
 def partial_measures(table: OrdinalTable, confidence: float = 0.95) -> pd.DataFrame:
-    """Association within layers, pooled: partial gamma.
+    """Association within levels of the control variable, pooled: partial gamma.
 
     Parameters
     ----------
     table : OrdinalTable
-        A layered table.
+        A table with a control variable.
     confidence : float
         Confidence level of the interval, strictly between 0 and 1.
 
@@ -230,7 +233,7 @@ def partial_measures(table: OrdinalTable, confidence: float = 0.95) -> pd.DataFr
     Estimate and standard errors as in :func:`partial_gamma_arrays` (Davis 1967, JASA 62:189).
     Pooled versions of Somers' d and tau-b are left out: we know of no published definition
     with a standard error that we could check against. A single partial value can hide
-    layers that disagree; look at :func:`layer_measures` and the ``gamma_homogeneity`` row
+    levels that disagree; look at :func:`control_measures` and the ``gamma_homogeneity`` row
     of :meth:`OrdinalTable.tests`. Holding one variable fixed does not remove other
     confounders: the value is still an association, not a causal effect.
 
@@ -239,30 +242,30 @@ def partial_measures(table: OrdinalTable, confidence: float = 0.95) -> pd.DataFr
     Davis, J. A. (1967). A partial coefficient for Goodman and Kruskal's gamma. JASA 62,
     189-193.
     """
-    _require_layers(table, "partial_measures")
+    _require_control(table, "partial_measures")
     crit = interval_quantile(confidence)
-    arrays = partial_gamma_arrays(table.cells, _layer_sampling(table))
+    arrays = partial_gamma_arrays(table.cells, _level_sampling(table))
     est, se, se0 = (float(arrays[f]) for f in ("estimate", "std_error", "std_error_null"))
-    note = "no pair of units within a layer is untied on both variables" if np.isnan(est) else ""
+    note = "no pair of units within a level is untied on both variables" if np.isnan(est) else ""
     if table.squared_weights is not None:
         extra = sampling_note(float(table.cells.sum()), float(table.squared_weights.sum()))
-        extra += "; each layer's records a sample of their own"
+        extra += "; each level's records a sample of their own"
         note = f"{note}; {extra}" if note else extra
     return inference_frame(["partial_gamma"], [est], [se], [se0], [note], crit=crit)
 
 
 def gamma_homogeneity(estimates: np.ndarray, std_errors: np.ndarray) -> dict[str, float | str]:
-    """Test that gamma is the same in every layer.
+    """Test that gamma is the same in every level.
 
     Parameters
     ----------
     estimates, std_errors : ndarray, shape (K,)
-        Gamma of each layer and its delta-method standard error.
+        Gamma of each level and its delta-method standard error.
 
     Returns
     -------
     dict
-        ``statistic``, ``df``, ``p_value``, ``weighted_mean`` and ``note``. Layers whose gamma
+        ``statistic``, ``df``, ``p_value``, ``weighted_mean`` and ``note``. Levels whose gamma
         is undefined, or whose standard error is 0 (gamma = +/-1), cannot enter the inverse-
         variance weights; they are left out and the note names how many.
 
@@ -270,10 +273,10 @@ def gamma_homogeneity(estimates: np.ndarray, std_errors: np.ndarray) -> dict[str
     -----
     ``X^2 = sum_k (g_k - gbar)^2 / SE_k^2`` with
     ``gbar = sum_k (g_k / SE_k^2) / sum_k (1 / SE_k^2)``, referred to chi-square on ``K' - 1``
-    degrees of freedom, ``K'`` the layers used: the heterogeneity statistic for combining
+    degrees of freedom, ``K'`` the levels used: the heterogeneity statistic for combining
     independent estimates (Cochran 1954; common practice for any asymptotically normal
-    measure). It has little power with few or small layers, so a large p-value does not show
-    that the layers agree.
+    measure). It has little power with few or small levels, so a large p-value does not show
+    that the levels agree.
 
     References
     ----------
@@ -287,17 +290,17 @@ def gamma_homogeneity(estimates: np.ndarray, std_errors: np.ndarray) -> dict[str
     notes = []
     if left_out:
         notes.append(
-            f"{left_out} layer(s) left out: gamma undefined or at +/-1 (no standard error)"
+            f"{left_out} level(s) left out: gamma undefined or at +/-1 (no standard error)"
         )
     if usable.sum() < 2:
-        notes.insert(0, "needs at least two layers with a defined gamma and standard error")
+        notes.insert(0, "needs at least two levels with a defined gamma and standard error")
         return {"statistic": np.nan, "df": np.nan, "p_value": np.nan, "weighted_mean": np.nan,
                 "note": "; ".join(notes)}
     w = 1 / se[usable] ** 2
     mean = float((w * g[usable]).sum() / w.sum())
     statistic = float((w * (g[usable] - mean) ** 2).sum())
     df = int(usable.sum()) - 1
-    notes.insert(0, f"inverse-variance weighted mean gamma = {mean:.4f} over {df + 1} layers")
+    notes.insert(0, f"inverse-variance weighted mean gamma = {mean:.4f} over {df + 1} levels")
     return {"statistic": statistic, "df": df, "p_value": float(stats.chi2.sf(statistic, df)),
             "weighted_mean": mean, "note": "; ".join(notes)}
 
@@ -305,15 +308,15 @@ def gamma_homogeneity(estimates: np.ndarray, std_errors: np.ndarray) -> dict[str
 def cmh_correlation(
     cells: np.ndarray, scores: str | Sequence[Sequence[float]] | None = None
 ) -> dict[str, float | str]:
-    """Generalized Cochran-Mantel-Haenszel test of correlation within layers.
+    """Generalized Cochran-Mantel-Haenszel test of correlation within levels of the control.
 
     Parameters
     ----------
     cells : ndarray, shape (K, I, J)
-        Counts of K layers.
+        Counts of K levels.
     scores : {'positions', 'midranks'} or (row_scores, col_scores), optional
         Category scores, as in :meth:`OrdinalTable.tests`; midranks are computed within
-        each layer from that layer's margins.
+        each level from that level's margins.
 
     Returns
     -------
@@ -322,14 +325,14 @@ def cmh_correlation(
 
     Notes
     -----
-    With ``T_k = sum_ij u_i v_j n_ijk`` and, given both margins of each layer (hypergeometric
+    With ``T_k = sum_ij u_i v_j n_ijk`` and, given both margins of each level (hypergeometric
     under conditional independence),
     ``E_k = (sum_i u_i n_i+k)(sum_j v_j n_+jk) / n_k`` and
     ``V_k = A_k B_k / (n_k^2 (n_k - 1))``, where
     ``A_k = n_k sum_i u_i^2 n_i+k - (sum_i u_i n_i+k)^2`` and ``B_k`` is its column twin, the
     statistic is ``(sum_k (T_k - E_k))^2 / sum_k V_k`` on 1 degree of freedom (Mantel 1963;
     Landis, Heyman & Koch 1978). For 2 x 2 x K tables it is the Mantel-Haenszel
-    statistic without continuity correction. Layers with fewer than two units add nothing.
+    statistic without continuity correction. Levels with fewer than two units add nothing.
 
     References
     ----------
@@ -341,35 +344,35 @@ def cmh_correlation(
     """
     n = np.asarray(cells, dtype=float)
     difference = variance = 0.0
-    for layer in n:
-        total = layer.sum()
-        rows, cols = layer.sum(axis=1), layer.sum(axis=0)
+    for level in n:
+        total = level.sum()
+        rows, cols = level.sum(axis=1), level.sum(axis=0)
         u, v = _resolve_scores(scores, rows, cols)
         if total < 2:
             continue
         su, sv = u @ rows, v @ cols
-        difference += u @ layer @ v - su * sv / total
+        difference += u @ level @ v - su * sv / total
         variance += (
             (total * (u**2 @ rows) - su**2) * (total * (v**2 @ cols) - sv**2)
             / (total**2 * (total - 1))
         )
     if not variance > 0:
         return {"statistic": np.nan, "df": np.nan, "p_value": np.nan,
-                "note": "the scores do not vary within any layer"}
+                "note": "the scores do not vary within any level"}
     statistic = float(difference**2 / variance)
     return {"statistic": statistic, "df": 1, "p_value": float(stats.chi2.sf(statistic, 1)),
-            "note": "association within layers, pooled (scores as for linear_by_linear)"}
+            "note": "association within levels, pooled (scores as for trend_m2)"}
 
 
-def layer_tests(
+def control_tests(
     table: OrdinalTable, scores: str | Sequence[Sequence[float]] | None = None
 ) -> pd.DataFrame:
-    """The two tests a layered table adds to :meth:`OrdinalTable.tests`.
+    """The two tests a table with a control variable adds to :meth:`OrdinalTable.tests`.
 
     Parameters
     ----------
     table : OrdinalTable
-        A layered table.
+        A table with a control variable.
     scores : {'positions', 'midranks'} or (row_scores, col_scores), optional
         Scores of the CMH correlation test.
 
@@ -378,11 +381,11 @@ def layer_tests(
     pandas.DataFrame
         Rows ``cmh_correlation`` (:func:`cmh_correlation`; NaN with a reason for sampling
         weights, whose totals are not counts) and ``gamma_homogeneity``
-        (:func:`gamma_homogeneity` on the per-layer gammas and their standard errors, which
+        (:func:`gamma_homogeneity` on the per-level gammas and their standard errors, which
         follow the weights); columns ``statistic, df, p_value, note``.
     """
-    _require_layers(table, "layer_tests")
-    sampling = _layer_sampling(table)
+    _require_control(table, "control_tests")
+    sampling = _level_sampling(table)
     if sampling.squared is None:
         cmh = cmh_correlation(table.cells, scores)
     else:

@@ -1,4 +1,5 @@
-"""Layered tables: per-layer counts and measures, partial gamma, homogeneity, CMH correlation.
+"""Tables with a control variable: per-level counts and measures, partial gamma, homogeneity,
+CMH correlation.
 
 The data are invented (seeded): three clinics ("north", "south", "east") where the association
 between a dose band (1-3) and a relief grade (1-4) differs by clinic.
@@ -15,15 +16,15 @@ from scipy import stats
 from statsmodels.stats.contingency_tables import StratifiedTable
 
 import rankfold
-from rankfold.layers import partial_gamma_arrays
+from rankfold.control_variable import partial_gamma_arrays
 
-LAYERS = ["north", "south", "east"]
+LEVELS = ["north", "south", "east"]
 
 
 def invented_clinics(seed: int = 7, size: int = 450) -> pd.DataFrame:
     """Invented records: dose 1-3 and relief 1-4, association strength differing by clinic."""
     rng = np.random.default_rng(seed)
-    clinic = rng.choice(LAYERS, size=size, p=[0.4, 0.35, 0.25])
+    clinic = rng.choice(LEVELS, size=size, p=[0.4, 0.35, 0.25])
     dose = rng.integers(1, 4, size=size)
     slope = pd.Series(clinic).map({"north": 0.9, "south": 0.2, "east": -0.4}).to_numpy()
     latent = slope * dose + rng.normal(0, 1.2, size=size)
@@ -37,9 +38,9 @@ def clinics() -> pd.DataFrame:
 
 
 @pytest.fixture(scope="module")
-def layered(clinics):
-    return rankfold.table(clinics, "dose", "relief", layer="clinic",
-                          order={"clinic": LAYERS})
+def controlled(clinics):
+    return rankfold.table(clinics, "dose", "relief", control="clinic",
+                          order={"clinic": LEVELS})
 
 
 # ------------------------------------------------------------------- independent references
@@ -53,15 +54,15 @@ def brute_force_pairs(x: np.ndarray, y: np.ndarray) -> tuple[int, int]:
 
 
 def pairs_from_cells(cells: np.ndarray) -> tuple[float, float]:
-    """P and Q (unordered, summed over layers) by looping over every pair of cells."""
+    """P and Q (unordered, summed over levels) by looping over every pair of cells."""
     P = Q = 0.0
-    for layer in cells:
-        n_i, n_j = layer.shape
+    for level in cells:
+        n_i, n_j = level.shape
         for (i, j), (a, b) in itertools.product(np.ndindex(n_i, n_j), repeat=2):
             if a > i and b > j:
-                P += layer[i, j] * layer[a, b]
+                P += level[i, j] * level[a, b]
             elif a > i and b < j:
-                Q += layer[i, j] * layer[a, b]
+                Q += level[i, j] * level[a, b]
     return P, Q
 
 
@@ -82,9 +83,9 @@ def numerical_gradient(f, cells: np.ndarray, h: float = 1e-4) -> np.ndarray:
 
 
 def stratified_delta_se(cells, grad, squared=None, records=None) -> float:
-    """sqrt(sum_k [sum s g^2 - (sum n g)^2 / m_k]): the delta method with independent layers
+    """sqrt(sum_k [sum s g^2 - (sum n g)^2 / m_k]): the delta method with independent levels
     (formula stated in issue 5; Bishop, Fienberg & Holland 1975, ch. 14). s = n and m_k = n_k
-    for counts; s = sum of squared weights and m_k = records of layer k for survey weights
+    for counts; s = sum of squared weights and m_k = records of level k for survey weights
     (Woodruff 1971)."""
     s = cells if squared is None else squared
     total = 0.0
@@ -94,57 +95,57 @@ def stratified_delta_se(cells, grad, squared=None, records=None) -> float:
     return float(np.sqrt(total))
 
 
-# -------------------------------------------------------------------------- per-layer views
-def test_layer_counts_match_pandas_crosstab(clinics, layered):
+# -------------------------------------------------------------------------- per-level views
+def test_level_counts_match_pandas_crosstab(clinics, controlled):
     # Outside reference: pandas.crosstab of the raw records.
     expected = pd.crosstab([clinics["clinic"], clinics["dose"]], clinics["relief"])
-    got = layered.layer_counts
+    got = controlled.control_counts
     assert got.index.names == ["clinic", "dose"]
-    for label in LAYERS:
+    for label in LEVELS:
         np.testing.assert_array_equal(got.xs(label, level=0).to_numpy(),
                                       expected.xs(label, level=0).to_numpy())
-    # the pooled table is the sum over layers
-    np.testing.assert_array_equal(layered.counts.to_numpy(),
+    # the pooled table is the sum over levels
+    np.testing.assert_array_equal(controlled.counts.to_numpy(),
                                   pd.crosstab(clinics["dose"], clinics["relief"]).to_numpy())
 
 
-def test_layer_measures_equal_each_layers_own_table(clinics, layered):
-    frame = layered.layer_measures(confidence=0.9)
+def test_level_measures_equal_each_levels_own_table(clinics, controlled):
+    frame = controlled.control_measures(confidence=0.9)
     assert frame.index.names == ["clinic", "measure"]
-    assert list(frame.index.get_level_values(0).unique()) == LAYERS
-    for label in LAYERS:
+    assert list(frame.index.get_level_values(0).unique()) == LEVELS
+    for label in LEVELS:
         own = rankfold.table(clinics[clinics["clinic"] == label], "dose", "relief",
                              order={"dose": [1, 2, 3], "relief": [1, 2, 3, 4]})
         pd.testing.assert_frame_equal(frame.xs(label, level=0), own.measures(confidence=0.9))
-        # Outside reference for the estimate: brute-force enumeration of the layer's pairs.
+        # Outside reference for the estimate: brute-force enumeration of the level's pairs.
         sub = clinics[clinics["clinic"] == label]
         C, D = brute_force_pairs(sub["dose"].to_numpy(), sub["relief"].to_numpy())
         assert frame.loc[(label, "gamma"), "estimate"] == pytest.approx((C - D) / (C + D))
 
 
-def test_layer_views_need_a_layer(clinics):
+def test_level_views_need_a_level(clinics):
     plain = rankfold.table(clinics, "dose", "relief")
-    for call in (lambda: plain.layer_counts, plain.layer_measures, plain.partial_measures):
-        with pytest.raises(ValueError, match="layer="):
+    for call in (lambda: plain.control_counts, plain.control_measures, plain.partial_measures):
+        with pytest.raises(ValueError, match="control="):
             call()
 
 
 # --------------------------------------------------------------------------- partial gamma
-def test_partial_gamma_equals_brute_force_pairs(clinics, layered):
-    # Davis (1967): sum_k (C_k - D_k) / sum_k (C_k + D_k), pairs formed within layers only.
+def test_partial_gamma_equals_brute_force_pairs(clinics, controlled):
+    # Davis (1967): sum_k (C_k - D_k) / sum_k (C_k + D_k), pairs formed within levels only.
     C = D = 0
-    for label in LAYERS:
+    for label in LEVELS:
         sub = clinics[clinics["clinic"] == label]
         c, d = brute_force_pairs(sub["dose"].to_numpy(), sub["relief"].to_numpy())
         C, D = C + c, D + d
-    row = layered.partial_measures().loc["partial_gamma"]
+    row = controlled.partial_measures().loc["partial_gamma"]
     assert row["estimate"] == pytest.approx((C - D) / (C + D), rel=1e-12)
-    # and it is not the pooled gamma (the layers matter in this invented scenario)
-    assert abs(row["estimate"] - layered.measures().loc["gamma", "estimate"]) > 0.02
+    # and it is not the pooled gamma (the levels matter in this invented scenario)
+    assert abs(row["estimate"] - controlled.measures().loc["gamma", "estimate"]) > 0.02
 
 
-def test_partial_gamma_standard_errors_equal_numerical_gradient(layered):
-    cells = layered.cells.astype(float)
+def test_partial_gamma_standard_errors_equal_numerical_gradient(controlled):
+    cells = controlled.cells.astype(float)
     grad = numerical_gradient(partial_gamma_loops, cells)
     P, Q = pairs_from_cells(cells)
 
@@ -153,7 +154,7 @@ def test_partial_gamma_standard_errors_equal_numerical_gradient(layered):
         return (p - q) / (P + Q)
 
     grad_null = numerical_gradient(numerator_over_fixed_denominator, cells)
-    row = layered.partial_measures(confidence=0.95).loc["partial_gamma"]
+    row = controlled.partial_measures(confidence=0.95).loc["partial_gamma"]
     assert row["std_error"] == pytest.approx(stratified_delta_se(cells, grad), rel=1e-6)
     assert row["std_error_null"] == pytest.approx(stratified_delta_se(cells, grad_null), rel=1e-6)
     # Wald interval and normal z test (Agresti 2010, sec. 7.1.3)
@@ -163,20 +164,20 @@ def test_partial_gamma_standard_errors_equal_numerical_gradient(layered):
     assert row["p_value"] == pytest.approx(2 * stats.norm.sf(abs(z)), rel=1e-9, abs=0)
 
 
-def test_partial_gamma_standard_error_matches_simulation(layered):
-    # Monte Carlo: draw each layer as a multinomial sample of its own size from its observed
+def test_partial_gamma_standard_error_matches_simulation(controlled):
+    # Monte Carlo: draw each level as a multinomial sample of its own size from its observed
     # proportions (the sampling model the standard error assumes) and compare the spread.
     rng = np.random.default_rng(20240501)
-    cells = layered.cells.astype(float)
+    cells = controlled.cells.astype(float)
     draws = np.stack(
         [rng.multinomial(int(c.sum()), (c / c.sum()).ravel(), size=4000).reshape(-1, *c.shape)
          for c in cells], axis=1)
     spread = np.nanstd(partial_gamma_arrays(draws)["estimate"], ddof=1)
-    se = layered.partial_measures().loc["partial_gamma", "std_error"]
+    se = controlled.partial_measures().loc["partial_gamma", "std_error"]
     assert se == pytest.approx(spread, rel=0.10)
 
 
-def test_partial_gamma_batch_equals_one_by_one(layered):
+def test_partial_gamma_batch_equals_one_by_one(controlled):
     rng = np.random.default_rng(3)
     batch = rng.integers(0, 20, size=(5, 3, 3, 4)).astype(float)
     together = partial_gamma_arrays(batch)
@@ -187,57 +188,57 @@ def test_partial_gamma_batch_equals_one_by_one(layered):
         assert together["std_error"][b] == pytest.approx(float(alone["std_error"]))
 
 
-def test_empty_layer_adds_nothing(clinics):
-    # An unused category of the layer (an ordered Categorical keeps it) must not turn the
-    # partial values into NaN; it leaves them as without that layer.
-    frame = clinics.assign(clinic=pd.Categorical(clinics["clinic"], [*LAYERS, "west"]))
-    with_empty = rankfold.table(frame, "dose", "relief", layer="clinic")
-    without = rankfold.table(clinics, "dose", "relief", layer="clinic", order={"clinic": LAYERS})
+def test_empty_level_adds_nothing(clinics):
+    # An unused category of the level (an ordered Categorical keeps it) must not turn the
+    # partial values into NaN; it leaves them as without that level.
+    frame = clinics.assign(clinic=pd.Categorical(clinics["clinic"], [*LEVELS, "west"]))
+    with_empty = rankfold.table(frame, "dose", "relief", control="clinic")
+    without = rankfold.table(clinics, "dose", "relief", control="clinic", order={"clinic": LEVELS})
     got = with_empty.partial_measures().loc["partial_gamma"]
     want = without.partial_measures().loc["partial_gamma"]
     for column in ("estimate", "std_error", "std_error_null"):
         assert got[column] == pytest.approx(want[column])
-    assert with_empty.layer_measures().loc[("west", "gamma"), "note"] == "the table is empty"
-    assert "1 layer(s) left out" in with_empty.tests().loc["gamma_homogeneity", "note"]
+    assert with_empty.control_measures().loc[("west", "gamma"), "note"] == "the table is empty"
+    assert "1 level(s) left out" in with_empty.tests().loc["gamma_homogeneity", "note"]
 
 
 def test_partial_gamma_undefined_is_nan_with_reason():
     t = rankfold.table(
         pd.DataFrame({"x": [1, 1, 2, 2], "y": [1, 2, 1, 2], "z": ["a", "a", "b", "b"]}),
-        "x", "y", layer="z",
+        "x", "y", control="z",
     )
-    # within each layer all units share x, so no pair is untied on both variables
+    # within each level all units share x, so no pair is untied on both variables
     row = t.partial_measures().loc["partial_gamma"]
     assert np.isnan(row["estimate"]) and np.isnan(row["std_error"])
     assert "untied" in row["note"]
 
 
 # --------------------------------------------------------------------- merges and exclusions
-def test_merge_and_exclude_apply_to_every_layer(clinics, layered):
-    changed = layered.merge("rows", [[1, 2]]).exclude("cols", [4])
+def test_merge_and_exclude_apply_to_every_level(clinics, controlled):
+    changed = controlled.merge("rows", [[1, 2]]).exclude("cols", [4])
     # Outside reference: recode the raw records with pandas and cross-tabulate.
     recoded = clinics[clinics["relief"] != 4].assign(dose=clinics["dose"].clip(lower=2))
     expected = pd.crosstab([recoded["clinic"], recoded["dose"]], recoded["relief"])
-    for label in LAYERS:
-        np.testing.assert_array_equal(changed.layer_counts.xs(label, level=0).to_numpy(),
+    for label in LEVELS:
+        np.testing.assert_array_equal(changed.control_counts.xs(label, level=0).to_numpy(),
                                       expected.xs(label, level=0).to_numpy())
 
 
 # ------------------------------------------------------------------------ homogeneity test
-def test_gamma_homogeneity_equals_independent_calculation(clinics, layered):
+def test_gamma_homogeneity_equals_independent_calculation(clinics, controlled):
     estimates, errors = [], []
-    for k, label in enumerate(LAYERS):
+    for k, label in enumerate(LEVELS):
         sub = clinics[clinics["clinic"] == label]
         C, D = brute_force_pairs(sub["dose"].to_numpy(), sub["relief"].to_numpy())
         estimates.append((C - D) / (C + D))
-        one = layered.cells[k : k + 1].astype(float)
+        one = controlled.cells[k : k + 1].astype(float)
         errors.append(stratified_delta_se(one, numerical_gradient(partial_gamma_loops, one)))
     g, se = np.array(estimates), np.array(errors)
     # Cochran (1954) heterogeneity statistic with inverse-variance weights (common practice)
     w = 1 / se**2
     mean = (w * g).sum() / w.sum()
     statistic = (w * (g - mean) ** 2).sum()
-    row = layered.tests().loc["gamma_homogeneity"]
+    row = controlled.tests().loc["gamma_homogeneity"]
     assert row["statistic"] == pytest.approx(statistic, rel=1e-6)
     assert row["df"] == 2
     assert row["p_value"] == pytest.approx(stats.chi2.sf(statistic, 2), rel=1e-5)
@@ -252,7 +253,7 @@ def test_cmh_equals_statsmodels_for_2x2xk():
     cells = rng.integers(3, 40, size=(4, 2, 2))
     records = [(k, i, j) for k, i, j in np.ndindex(cells.shape) for _ in range(cells[k, i, j])]
     df = pd.DataFrame(records, columns=["z", "x", "y"])
-    row = rankfold.table(df, "x", "y", layer="z").tests().loc["cmh_correlation"]
+    row = rankfold.table(df, "x", "y", control="z").tests().loc["cmh_correlation"]
     # Outside reference: statsmodels' Mantel-Haenszel test without continuity correction.
     reference = StratifiedTable(np.moveaxis(cells, 0, -1).astype(float)).test_null_odds(
         correction=False)
@@ -263,57 +264,58 @@ def test_cmh_equals_statsmodels_for_2x2xk():
 
 def landis_heyman_koch(cells: np.ndarray, u: np.ndarray, v: np.ndarray) -> float:
     """Generalized CMH correlation statistic in the matrix form of Landis, Heyman & Koch
-    (1978, Int. Stat. Rev. 46:237): with p, q the layer's row and column proportions,
+    (1978, Int. Stat. Rev. 46:237): with p, q the level's row and column proportions,
     E_h = n_h (p kron q) and V_h = n_h^2 / (n_h - 1) [(D_p - p p') kron (D_q - q q')]."""
     b = np.kron(u, v)
     diff = var = 0.0
-    for layer in cells.astype(float):
-        n = layer.sum()
-        p, q = layer.sum(axis=1) / n, layer.sum(axis=0) / n
+    for level in cells.astype(float):
+        n = level.sum()
+        p, q = level.sum(axis=1) / n, level.sum(axis=0) / n
         cov = n**2 / (n - 1) * np.kron(np.diag(p) - np.outer(p, p), np.diag(q) - np.outer(q, q))
-        diff += b @ (layer.ravel() - n * np.kron(p, q))
+        diff += b @ (level.ravel() - n * np.kron(p, q))
         var += b @ cov @ b
     return diff**2 / var
 
 
-def test_cmh_equals_published_matrix_form(layered):
+def test_cmh_equals_published_matrix_form(controlled):
     u, v = np.array([1.0, 2.0, 3.0]), np.array([1.0, 2.0, 3.0, 4.0])
-    expected = landis_heyman_koch(layered.cells, u, v)
-    assert layered.tests().loc["cmh_correlation", "statistic"] == pytest.approx(expected, rel=1e-10)
+    expected = landis_heyman_koch(controlled.cells, u, v)
+    got = controlled.tests().loc["cmh_correlation", "statistic"]
+    assert got == pytest.approx(expected, rel=1e-10)
     custom = ([0.0, 1.0, 5.0], [1.0, 2.0, 4.0, 8.0])
-    expected = landis_heyman_koch(layered.cells, *map(np.array, custom))
-    got = layered.tests(scores=custom).loc["cmh_correlation", "statistic"]
+    expected = landis_heyman_koch(controlled.cells, *map(np.array, custom))
+    got = controlled.tests(scores=custom).loc["cmh_correlation", "statistic"]
     assert got == pytest.approx(expected, rel=1e-10)
 
 
-def test_cmh_midranks_are_taken_within_layers(layered):
-    # midrank scores from each layer's own margins (Landis, Heyman & Koch 1978, "modified
-    # ridit"-type scores): statistic = sum over layers, so compute layer by layer by hand.
+def test_cmh_midranks_are_taken_within_levels(controlled):
+    # midrank scores from each level's own margins (Landis, Heyman & Koch 1978, "modified
+    # ridit"-type scores): statistic = sum over levels, so compute level by level by hand.
     diff = var = 0.0
-    for layer in layered.cells.astype(float):
-        rows, cols = layer.sum(axis=1), layer.sum(axis=0)
+    for level in controlled.cells.astype(float):
+        rows, cols = level.sum(axis=1), level.sum(axis=0)
         u = np.cumsum(rows) - rows / 2 + 0.5
         v = np.cumsum(cols) - cols / 2 + 0.5
-        n = layer.sum()
+        n = level.sum()
         p, q = rows / n, cols / n
         b = np.kron(u, v)
         cov = n**2 / (n - 1) * np.kron(np.diag(p) - np.outer(p, p), np.diag(q) - np.outer(q, q))
-        diff += b @ (layer.ravel() - n * np.kron(p, q))
+        diff += b @ (level.ravel() - n * np.kron(p, q))
         var += b @ cov @ b
-    got = layered.tests(scores="midranks").loc["cmh_correlation", "statistic"]
+    got = controlled.tests(scores="midranks").loc["cmh_correlation", "statistic"]
     assert got == pytest.approx(diff**2 / var, rel=1e-10)
 
 
-def test_cmh_with_one_layer_is_the_correlation_test(clinics):
-    # With one layer the statistic is (n - 1) r^2, r the Pearson correlation of the scores
+def test_cmh_with_one_level_is_the_correlation_test(clinics):
+    # With one level the statistic is (n - 1) r^2, r the Pearson correlation of the scores
     # (Mantel 1963); reference r from scipy on the records.
-    t = rankfold.table(clinics.assign(one="all"), "dose", "relief", layer="one")
+    t = rankfold.table(clinics.assign(one="all"), "dose", "relief", control="one")
     r = stats.pearsonr(clinics["dose"], clinics["relief"]).statistic
     expected = (len(clinics) - 1) * r**2
     assert t.tests().loc["cmh_correlation", "statistic"] == pytest.approx(expected, rel=1e-10)
 
 
-def test_unlayered_tests_have_no_layer_rows(clinics):
+def test_uncontrolled_tests_have_no_level_rows(clinics):
     index = rankfold.table(clinics, "dose", "relief").tests().index
     assert "cmh_correlation" not in index and "gamma_homogeneity" not in index
 
@@ -333,7 +335,7 @@ def test_invented_clinic_scenario_reverses_within_clinics():
         c, d = brute_force_pairs(codes["wait"][mask], codes["satisfaction"][mask])
         assert (c - d) / (c + d) < 0  # every clinic: longer waits, less happy patients
         within_c, within_d = within_c + c, within_d + d
-    partial = rankfold.table(df, "wait", "satisfaction", layer="clinic").partial_measures()
+    partial = rankfold.table(df, "wait", "satisfaction", control="clinic").partial_measures()
     assert partial.loc["partial_gamma", "estimate"] == pytest.approx(
         (within_c - within_d) / (within_c + within_d))
     # the weights restore each clinic's share of all visits (50%, 30%, 20%), by construction
@@ -341,12 +343,12 @@ def test_invented_clinic_scenario_reverses_within_clinics():
     np.testing.assert_allclose(shares.to_numpy(), [0.5, 0.3, 0.2], atol=0.02)
 
 
-def test_layer_table_is_that_layers_records(clinics, layered):
-    # Outside reference: the layer's records tabulated by pandas.
-    one = layered.layer_table("south")
+def test_level_table_is_that_levels_records(clinics, controlled):
+    # Outside reference: the level's records tabulated by pandas.
+    one = controlled.control_table("south")
     own = clinics[clinics["clinic"] == "south"]
     np.testing.assert_array_equal(one.counts.to_numpy(),
                                   pd.crosstab(own["dose"], own["relief"]).to_numpy())
-    assert one.layer_name is None
-    with pytest.raises(ValueError, match="not a category of the layer 'clinic'"):
-        layered.layer_table("west")
+    assert one.control_name is None
+    with pytest.raises(ValueError, match="not a category of the control variable 'clinic'"):
+        controlled.control_table("west")
