@@ -119,6 +119,7 @@ def single_level(table: OrdinalTable, label: Hashable) -> OrdinalTable:
         table, cells=pick(table.cells), squared_weights=pick(table.squared_weights),
         records=pick(table.records), control_name=None, control_labels=(None,),
         origin=Origin("counts"), initial_steps=len(table.steps),
+        collected_from=None, row_map=None, col_map=None,
     )
 
 

@@ -107,6 +107,12 @@ class OrdinalTable:
     records: np.ndarray | None = None  # (K, I, J) data rows per cell when weight_kind == "sampling"
     origin: Origin = field(default_factory=lambda: Origin("counts"))
     initial_steps: int = 0
+    # The table as collected (None: this one) and where each of its categories went here: the
+    # position in this table, or -1 when left out. Kept so that two codings of the same data
+    # can be compared with a paired standard error (see rankfold.coding_change).
+    collected_from: OrdinalTable | None = field(default=None, repr=False)
+    row_map: tuple[int, ...] | None = field(default=None, repr=False)
+    col_map: tuple[int, ...] | None = field(default=None, repr=False)
 
     def __post_init__(self) -> None:
         for name in ("cells", "squared_weights", "records"):
@@ -144,6 +150,32 @@ class OrdinalTable:
         if self.squared_weights is None:
             return Sampling()
         return Sampling(self.squared_weights.sum(axis=0), self.records.sum())
+
+    @property
+    def collected(self) -> OrdinalTable:
+        """The table as collected, before any merge, exclusion or reorder made here.
+
+        Every coding of one table shares it (by identity), which is how
+        :func:`rankfold.compare_measures` knows two tables are codings of the same data.
+        :meth:`transpose` and :meth:`control_table` start afresh: their result is its own
+        collected table.
+        """
+        return self if self.collected_from is None else self.collected_from
+
+    def coding_maps(self) -> tuple[np.ndarray, np.ndarray]:
+        """Where each row and column category of :attr:`collected` went in this table.
+
+        Returns
+        -------
+        (ndarray, ndarray)
+            For each collected row (column) category, its position in this table, or -1 when
+            it was left out; merged categories share a position. The coded cells are
+            ``n[k, i, j] = sum of collected n[k, a, b] over row_map[a] == i, col_map[b] == j``,
+            a linear map of the collected counts.
+        """
+        if self.collected_from is None:
+            return np.arange(len(self.row_labels)), np.arange(len(self.col_labels))
+        return np.asarray(self.row_map), np.asarray(self.col_map)
 
     # ----------------------------------------------------------------------- statistics
     def pairs(self) -> dict[str, int | float]:
@@ -426,8 +458,17 @@ class OrdinalTable:
             return np.stack(parts, axis=axis)
 
         key = "row_labels" if axis == 1 else "col_labels"
+        maps = list(self.coding_maps())
+        moved = np.full(len(self._labels(axis)), -1)
+        for k, members in enumerate(index):
+            moved[members] = k
+        old = maps[axis - 1]
+        maps[axis - 1] = np.where(old >= 0, moved[np.maximum(old, 0)], -1)
         return replace(
             self,
+            collected_from=self.collected,
+            row_map=tuple(int(x) for x in maps[0]),
+            col_map=tuple(int(x) for x in maps[1]),
             cells=regroup(self.cells),
             squared_weights=regroup(self.squared_weights),
             records=regroup(self.records),
@@ -628,6 +669,9 @@ class OrdinalTable:
                 },
             ),
             initial_steps=len(self.steps),
+            collected_from=None,
+            row_map=None,
+            col_map=None,
         )
 
     # ------------------------------------------------------------------- reproducibility
