@@ -8,7 +8,7 @@ from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
-from scipy import special, stats
+from scipy import special
 
 from .ordinal_measures import Sampling
 
@@ -275,6 +275,8 @@ def permutation_test(
         raise ValueError(
             f"seed must be a whole number, a numpy Generator or None; got {seed!r}."
         ) from err
+    from scipy import stats  # imported here: scipy.stats takes about a second to import
+
     dist = stats.random_table(
         n.sum(axis=1).astype(np.int64), n.sum(axis=0).astype(np.int64), seed=rng
     )
