@@ -247,18 +247,21 @@ def _count_pairs(
             if squares is not None:
                 squared.append(np.bincount(flat, squares, minlength=size))
                 records.append(np.bincount(flat, minlength=size))
-
-        def inner(parts: list[np.ndarray], kind: type) -> np.ndarray:
-            # drop the slots of missing values: the last level, row and column
-            stacked = np.stack(parts).reshape(len(parts), *shape)
-            return np.ascontiguousarray(stacked[:, :n_levels, :size_i, :size_j], dtype=kind)
-
+        kept = (slice(None), slice(n_levels), slice(size_i), slice(size_j))
         out.append(_PairCells(
-            pairs, inner(cells, np.int64 if weights is None or frequency_whole else float),
-            inner(squared, float) if squares is not None else None,
-            inner(records, np.int64) if squares is not None else None,
+            pairs, _inner(cells, shape, kept, np.int64 if weights is None or frequency_whole
+                          else float),
+            _inner(squared, shape, kept, float) if squares is not None else None,
+            _inner(records, shape, kept, np.int64) if squares is not None else None,
         ))
     return out
+
+
+def _inner(parts: list[np.ndarray], shape: tuple[int, ...], kept: tuple[slice, ...],
+           kind: type) -> np.ndarray:
+    """Stacked counts without the slots of missing values (the last level, row and column)."""
+    stacked = np.stack(parts).reshape(len(parts), *shape)
+    return np.ascontiguousarray(stacked[kept], dtype=kind)
 
 
 def _measure_batch(batch: _PairCells, measure: str, controlled: bool) -> dict[str, np.ndarray]:

@@ -145,7 +145,8 @@ def test_overview_matrix_spec_selection_and_marks():
         assert cell["unstable"] == bool(row.coding_sign_changes or
                                         row.coding_significance_changes)
     renders(chart)
-    renders(rankfold.charts.overview_matrix(frame.assign(estimate=np.nan)))  # undefined estimates still draw
+    # undefined estimates still draw
+    renders(rankfold.charts.overview_matrix(frame.assign(estimate=np.nan)))
     with pytest.raises(ValueError, match="lacks the column"):
         rankfold.charts.overview_matrix(frame.drop(columns="estimate"))
     with pytest.raises(ValueError, match="rankfold.overview"):

@@ -13,6 +13,7 @@ from itertools import combinations
 
 import numpy as np
 import pandas as pd
+from bench_sweep import best_of  # the scripts' own folder is first on the path when run
 
 import rankfold
 
@@ -31,15 +32,6 @@ def invented_items(seed: int = 16) -> pd.DataFrame:
         data[f"item{k:02d}"] = pd.Categorical.from_codes(
             np.searchsorted(cuts, x), [f"answer {i + 1}" for i in range(levels)], ordered=True)
     return pd.DataFrame(data)
-
-
-def best_of(repeats: int, run) -> float:
-    times = []
-    for _ in range(repeats):
-        start = time.perf_counter()
-        run()
-        times.append(time.perf_counter() - start)
-    return min(times)
 
 
 def main() -> None:
