@@ -18,7 +18,13 @@ import pandas as pd
 
 from .collapsing import _sparse_columns, rule_met, sweep
 from .control_variable import partial_gamma_arrays
-from .counting import _weights, check_columns, check_total, code_column
+from .counting import (
+    _weights,
+    check_columns,
+    check_total,
+    code_column,
+    refuse_unknown_keywords,
+)
 from .measure_table import _undefined_reasons, inference_frame, interval_quantile, sampling_note
 from .ordinal_measures import ORDINAL_MEASURES, Sampling, ordinal_measure_arrays
 from .ordinal_table import OrdinalTable
@@ -378,6 +384,7 @@ def overview(
     adjust: str | None = "holm",
     coding_ranges: bool = False,
     progress: Callable[[int, int], None] | None = None,
+    **unknown: object,
 ) -> pd.DataFrame:
     """The association of every pair of ordered columns of a frame, one row per pair.
 
@@ -461,6 +468,7 @@ def overview(
     >>> list(frame.attrs["skipped"])
     ['note']
     """
+    refuse_unknown_keywords("overview", unknown)
     names, order = _check_arguments(df, columns, measure, control, weight, weight_kind, order)
     if not isinstance(coding_ranges, bool):
         raise ValueError(f"coding_ranges must be True or False; got {coding_ranges!r}.")

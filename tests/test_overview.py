@@ -195,3 +195,15 @@ def test_non_substantive_labels():
               "Prefer not to say", "n/a", 3, "knowledgeable"]
     assert _non_substantive_labels(labels) == (
         "Don\u2019t know", "No answer", "refused", "not applicable", "Prefer not to say", "n/a")
+
+
+def test_old_layer_keyword_names_control(survey):
+    with pytest.raises(TypeError, match=r"layer=.*control="):
+        rankfold.overview(survey, ITEMS[:2], layer="region")
+
+
+def test_progress_reports_every_pair_of_the_ranges(survey):
+    calls = []
+    rankfold.overview(survey, ITEMS[:3], coding_ranges=True,
+                      progress=lambda done, total: calls.append((done, total)))
+    assert calls == [(1, 3), (2, 3), (3, 3)]
