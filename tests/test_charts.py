@@ -145,6 +145,11 @@ def test_overview_matrix_spec_selection_and_marks():
         assert cell["unstable"] == bool(row.coding_sign_changes or
                                         row.coding_significance_changes)
     renders(chart)
+    outlined = rankfold.charts.overview_matrix(frame, chosen=("age_band", "opinion"))
+    filters = [t.get("filter") for layer in outlined.to_dict()["layer"]
+               for t in layer.get("transform", [])]
+    assert any('datum.var_a == "age_band"' in str(f) for f in filters)
+    renders(outlined)
     # undefined estimates still draw
     renders(rankfold.charts.overview_matrix(frame.assign(estimate=np.nan)))
     with pytest.raises(ValueError, match="lacks the column"):

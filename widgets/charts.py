@@ -7,6 +7,7 @@ teals for the upper end, a stone grey for the middle and greys for answers set a
 
 from __future__ import annotations
 
+import json
 import math
 from collections.abc import Hashable, Sequence
 
@@ -266,7 +267,9 @@ def _matrix_records(frame: pd.DataFrame, names: list[str]) -> list[dict]:
     return records
 
 
-def overview_matrix(frame: pd.DataFrame, *, cell: int | None = None) -> alt.LayerChart:
+def overview_matrix(
+    frame: pd.DataFrame, *, cell: int | None = None, chosen: tuple[str, str] | None = None
+) -> alt.LayerChart:
     """A matrix of the columns of an overview, each cell coloured by the pair's estimate.
 
     Parameters
@@ -277,6 +280,9 @@ def overview_matrix(frame: pd.DataFrame, *, cell: int | None = None) -> alt.Laye
     cell : int, optional
         Side of a cell in pixels (default 44 up to 12 columns, with the estimates printed,
         and 22 beyond).
+    chosen : (str, str), optional
+        A pair ``(var_a, var_b)`` to outline (in both triangles), e.g. the pair open in the
+        explorer.
 
     Returns
     -------
@@ -355,6 +361,12 @@ def overview_matrix(frame: pd.DataFrame, *, cell: int | None = None) -> alt.Laye
             for flag, offset in (("sparse", 1), ("unstable", -1))
         ]
         layers = [blank, colour, *flags]
+        if chosen is not None:
+            a, b = (str(v) for v in chosen)
+            pick = (f"(datum.var_a == {json.dumps(a)} && datum.var_b == {json.dumps(b)}) || "
+                    f"(datum.var_a == {json.dumps(b)} && datum.var_b == {json.dumps(a)})")
+            layers.append(alt.Chart().mark_rect(fill=None, stroke="#111111", strokeWidth=2.5)
+                          .encode(x=x, y=y).transform_filter(pick))
         if printed:
             layers.append(alt.Chart().mark_text(fontSize=9).encode(
                 x=x, y=y, text=alt.Text(field="text", type="nominal"),
