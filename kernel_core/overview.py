@@ -155,8 +155,8 @@ def _code_all(
                                             minlength=len(coded.labels)))
         if busy < 2:
             skipped[name] = (
-                f"Column {name!r} has {busy} category with data; an association needs at "
-                "least two."
+                f"Column {name!r} has {'no category' if busy == 0 else 'one category'} with "
+                "data; an association needs at least two."
             )
             continue
         slots = np.where(coded.codes >= 0, coded.codes, len(coded.labels)).astype(np.intp)

@@ -162,3 +162,16 @@ def test_charts_reached_lazily_from_the_core():
     import rankfold.widgets.charts as module
 
     assert rankfold.charts is module
+
+
+def test_readme_overview_example_runs():
+    import re
+    from pathlib import Path
+
+    readme = (Path(__file__).resolve().parents[1] / "README.md").read_text(encoding="utf-8")
+    blocks = re.findall(r"```python\n(.*?)```", readme, re.S)
+    example = next(b for b in blocks if "rankfold.overview(" in b)
+    namespace: dict = {}
+    exec(blocks[0], namespace)  # noqa: S102 - our own README: the demo frame and table
+    exec(example, namespace)  # noqa: S102
+    assert set(namespace["frame"].attrs["skipped"]) == {"district", "survey_weight"}
