@@ -19,6 +19,7 @@ from .independence import PermutationResult, independence_label
 from .measure_comparison import compare_measures
 from .measure_table import measure_label
 from .ordinal_table import OrdinalTable
+from .overview import overview
 from .pair_regions import PairRegions, pair_regions
 from .steps import ExcludeStep, MergeStep, OrderStep, apply_steps
 
@@ -41,6 +42,7 @@ __all__ = [
     "explore",
     "independence_label",
     "measure_label",
+    "overview",
     "pair_counts",
     "pair_regions",
     "suggest_collapsing",
@@ -58,4 +60,8 @@ def __getattr__(name: str) -> Any:
         from .widgets import explore
 
         return explore
+    if name == "charts":  # Altair charts of tables and overviews, also imported on first use
+        from .widgets import charts
+
+        return charts
     raise AttributeError(f"module 'rankfold' has no attribute {name!r}")
