@@ -122,11 +122,14 @@ def _cramers_v(counts: np.ndarray, sampling: Sampling) -> dict[str, float]:
         sq = sq[np.ix_(keep_r, keep_c)]
     var_phi2 = delta_variance(n, grad_phi2, Sampling(sq, sampling.records))
     se = np.sqrt(var_phi2) / (2 * v * (m - 1)) if v > 0 else np.nan
+    gradient = np.zeros(counts.shape)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        gradient[np.ix_(keep_r, keep_c)] = grad_phi2 / (2 * v * (m - 1))
     # Pearson's X^2 = n phi^2 on (I' - 1)(J' - 1) df (Cramer 1946, sec. 21.9); weighted
     # totals under sampling weights are not counts, so no p-value then.
     df = (n.shape[0] - 1) * (n.shape[1] - 1)
     p = special.chdtrc(df, n.sum() * max(phi2, 0.0)) if sampling.squared is None else np.nan
-    return {"estimate": v, "std_error": float(se), "p_value": float(p)}
+    return {"estimate": v, "std_error": float(se), "p_value": float(p), "gradient": gradient}
 
 
 def measures_frame(

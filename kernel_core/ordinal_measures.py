@@ -100,7 +100,7 @@ def _expand(x: np.ndarray) -> np.ndarray:
 
 
 def ordinal_measure_arrays(
-    counts: np.ndarray, sampling: Sampling | None = None
+    counts: np.ndarray, sampling: Sampling | None = None, gradients: bool = False
 ) -> dict[str, dict[str, np.ndarray]]:
     """Estimates, standard errors and null standard errors of the ordinal measures.
 
@@ -110,14 +110,17 @@ def ordinal_measure_arrays(
         Cell counts (or sums of weights) with rows and columns in their order.
     sampling : Sampling, optional
         Survey-weight information for the variances; multinomial counts by default.
+    gradients : bool
+        Also return each measure's ``gradient`` with respect to the cell counts, shape
+        (..., I, J), the one its standard error uses.
 
     Returns
     -------
     dict
         For each key of :data:`ORDINAL_MEASURES`, a dict with arrays ``estimate``,
         ``std_error`` (delta method, no null hypothesis) and ``std_error_null`` (under
-        independence), each of the batch shape. Undefined values are NaN; the caller turns
-        the cause into a note.
+        independence), each of the batch shape (and ``gradient`` when asked for). Undefined
+        values are NaN; the caller turns the cause into a note.
 
     Notes
     -----
@@ -177,11 +180,14 @@ def ordinal_measure_arrays(
     def finish(estimate, grad, null_scale):
         with np.errstate(invalid="ignore"):
             null = numerator_se * np.abs(null_scale)
-        return {
+        found = {
             "estimate": estimate,
             "std_error": np.sqrt(delta_variance(n, grad, sampling)),
             "std_error_null": null,
         }
+        if gradients:
+            found["gradient"] = grad
+        return found
 
     out: dict[str, dict[str, np.ndarray]] = {}
 
@@ -216,7 +222,7 @@ def ordinal_measure_arrays(
         grad = 2 * (d - _expand(S) / N) * _expand(scale)
     out["tau_c"] = finish(S * scale, grad, scale)
 
-    out["spearman_rho"] = _spearman(n, rows, cols, total, sampling)
+    out["spearman_rho"] = _spearman(n, rows, cols, total, sampling, gradients)
     return out
 
 
@@ -225,7 +231,7 @@ def _centred_midranks(margin: np.ndarray, total: np.ndarray) -> np.ndarray:
     return np.cumsum(margin, axis=-1) - margin / 2 - np.asarray(total)[..., None] / 2
 
 
-def _spearman(n, rows, cols, total, sampling):
+def _spearman(n, rows, cols, total, sampling, gradients=False):
     """Spearman's rho with midrank scores: estimate, delta-method and permutation SEs.
 
     With the centred midranks ``u_i = N_(<i) + n_i+/2 - n/2`` and ``v_j`` likewise,
@@ -268,4 +274,7 @@ def _spearman(n, rows, cols, total, sampling):
     with np.errstate(invalid="ignore", divide="ignore"):
         se_null = np.where(size > 1, 1 / np.sqrt(np.maximum(size - 1, 1e-300)), np.nan)
     se_null = np.where(np.isnan(rho), np.nan, se_null)
-    return {"estimate": rho, "std_error": se, "std_error_null": se_null}
+    found = {"estimate": rho, "std_error": se, "std_error_null": se_null}
+    if gradients:
+        found["gradient"] = grad
+    return found

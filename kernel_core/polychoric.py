@@ -307,13 +307,14 @@ def _fit_full_margins(n: np.ndarray, sampling: Sampling, start: np.ndarray) -> d
     rho, info, model = _newton(n, a, b, start, row_cum, col_cum)
     g0, _ = _null_gradient(n, a, b)
     # one variance rule for counts and sampling weights alike (see polychoric_arrays)
-    se = np.sqrt(delta_variance(n, _linearised_gradient(n, a, b, rho, info, model), sampling))
+    gradient = _linearised_gradient(n, a, b, rho, info, model)
+    se = np.sqrt(delta_variance(n, gradient, sampling))
     se0 = np.sqrt(delta_variance(n, g0, sampling))
     fitted = total[..., None, None] * model.pi
     with np.errstate(divide="ignore", invalid="ignore"):
         g2 = 2 * np.where(n > 0, n * np.log(n / fitted), 0.0).sum(axis=(-2, -1))
     return {"estimate": rho, "std_error": se, "std_error_null": se0, "fit_statistic": g2,
-            "row_thresholds": a, "col_thresholds": b}
+            "gradient": gradient, "row_thresholds": a, "col_thresholds": b}
 
 
 def _starting_values(n: np.ndarray, conc: np.ndarray, disc: np.ndarray) -> np.ndarray:
@@ -355,7 +356,9 @@ def polychoric_arrays(
     dict of ndarray
         Arrays of the batch shape: ``estimate``, ``std_error``, ``std_error_null`` (standard
         error at ``rho = 0``), ``fit_statistic`` (G^2), ``fit_df`` and ``reason`` (an object
-        array of plain-words reasons, '' where the estimate is defined).
+        array of plain-words reasons, '' where the estimate is defined); and ``gradient`` of
+        shape (..., I, J), the derivative of ``rho_hat`` in each cell total that the standard
+        errors use (NaN where undefined; 0 in empty categories, at the model's boundary).
 
     Notes
     -----
@@ -429,6 +432,7 @@ def polychoric_arrays(
     guess = (_starting_values(flat, conc, disc) if start is None
              else np.broadcast_to(np.asarray(start, float), batch).reshape(-1))
     out = {key: np.full(size, np.nan) for key in _FIELDS}
+    gradient = np.full(flat.shape, np.nan)
     full = (reason == "") & (rows > 0).all(axis=-1) & (cols > 0).all(axis=-1)
     if full.any():
         part = Sampling(None if squared is None else squared[full],
@@ -436,6 +440,7 @@ def polychoric_arrays(
         found = _fit_full_margins(flat[full], part, guess[full])
         for key in _FIELDS:
             out[key][full] = found[key]
+        gradient[full] = found["gradient"]
     for t in np.flatnonzero((reason == "") & ~full):  # empty categories: drop, fit alone
         keep = np.ix_(rows[t] > 0, cols[t] > 0)
         part = Sampling(None if squared is None else squared[t][keep][None],
@@ -443,10 +448,14 @@ def polychoric_arrays(
         found = _fit_full_margins(flat[t][keep][None], part, guess[t : t + 1])
         for key in _FIELDS:
             out[key][t] = found[key][0]
+        gradient[t] = 0.0  # an empty category has no threshold to move (boundary of the model)
+        gradient[t][keep] = found["gradient"][0]
     df = (busy_r * busy_c - busy_r - busy_c).astype(float)
     out["fit_df"] = np.where(reason == "", df, np.nan)
     out["reason"] = reason
-    return {key: value.reshape(batch) for key, value in out.items()}
+    shaped = {key: value.reshape(batch) for key, value in out.items()}
+    shaped["gradient"] = gradient.reshape(n.shape)
+    return shaped
 
 
 # ------------------------------------------------------------------------- one table
