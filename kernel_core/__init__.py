@@ -11,7 +11,16 @@ from typing import Any
 
 from . import demo
 from .cell_figures import cell_figures
-from .collapsing import apply_coding, suggest_collapsing, sweep, sweep_chunks
+from .collapsing import (
+    apply_coding,
+    count_codings,
+    range_sentence,
+    rule_met,
+    suggest_collapsing,
+    sweep,
+    sweep_chunks,
+    sweep_ranges,
+)
 from .concordance import cell_concordance, pair_counts
 from .counting import table, table_from_counts
 from .diagnostics import Diagnostics
@@ -38,6 +47,7 @@ __all__ = [
     "cell_concordance",
     "cell_figures",
     "compare_measures",
+    "count_codings",
     "demo",
     "explore",
     "independence_label",
@@ -45,9 +55,12 @@ __all__ = [
     "overview",
     "pair_counts",
     "pair_regions",
+    "range_sentence",
+    "rule_met",
     "suggest_collapsing",
     "sweep",
     "sweep_chunks",
+    "sweep_ranges",
     "table",
     "table_from_counts",
 ]

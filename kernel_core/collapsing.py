@@ -855,6 +855,16 @@ class CollapsingSuggestion:
     codings: int
     note: str
 
+    def __repr__(self) -> str:
+        # a short summary; the recoded table is in .table
+        if self.table is None:
+            return f"<CollapsingSuggestion: none ({self.rule}); {self.note}>"
+        shown = " ; ".join(f"{name}: " + " | ".join(merged_label(g) for g in groups)
+                           for name, groups in ((self.table.row_name, self.row_groups),
+                                                (self.table.col_name, self.col_groups)))
+        return (f"<CollapsingSuggestion ({self.rule}), {self.merges} merge(s), "
+                f"{self.meeting:,} of {self.codings:,} codings meet the rule: {shown}>")
+
 
 def suggest_collapsing(
     table: OrdinalTable,

@@ -215,6 +215,11 @@ class PermutationResult:
     n_resamples: int
     null_distribution: np.ndarray
 
+    def __repr__(self) -> str:
+        # one line: the resampled values are there to be inspected, not printed
+        return (f"<PermutationResult {self.measure} = {self.statistic:.4f}, "
+                f"p = {self.p_value:.4g} from {self.n_resamples:,} random tables>")
+
 
 def permutation_test(
     counts: np.ndarray,
