@@ -87,8 +87,14 @@ def test_zero_cell_adds_one_half_to_every_cell_and_says_so(counts):
     (a, b), (c, d) = counts + 0.5
     assert frame.loc["odds_ratio", "estimate"] == pytest.approx(a * d / (b * c))
     assert frame.loc["odds_ratio", "std_error"] == pytest.approx(np.sqrt(1/a + 1/b + 1/c + 1/d))
-    for key in ("odds_ratio", "yules_q", "yules_y"):
-        assert "0.5 added" in frame.loc[key, "note"]
+    assert "add 0.5 to every cell" in frame.loc["odds_ratio", "note"]
+    # Yule (1912): Q and Y come from the unadjusted cross products, so with a zero cell they
+    # sit on their bound (+/-1) and have no delta-method interval.
+    for key in ("yules_q", "yules_y"):
+        assert abs(frame.loc[key, "estimate"]) == 1.0
+        assert "0.5" not in frame.loc[key, "note"]
+        assert "at its bound" in frame.loc[key, "note"]
+        assert np.isnan(frame.loc[key, "ci_low"])
 
 
 def test_no_zero_cell_means_no_adjustment_note():
