@@ -13,7 +13,8 @@ from scipy import special, stats
 from .ordinal_measures import Sampling
 
 __all__ = [
-    "tests_frame", "PermutationResult", "permutation_test", "midrank_scores", "independence_label",
+    "PERMUTATION_MAX_TOTAL", "tests_frame", "PermutationResult", "permutation_test",
+    "midrank_scores", "independence_label",
 ]
 
 TEST_KEYS = ("pearson_x2", "likelihood_ratio_g2", "trend_m2")
@@ -190,6 +191,12 @@ def _frame(out: dict) -> pd.DataFrame:
     return frame
 
 
+#: Largest table total the permutation test accepts: scipy.stats.random_table (scipy 1.17)
+#: draws right tables up to 2**31 - 1 units in every case we tried, and above it may return
+#: constant or wrong tables, or crash the process (totals of 3.5e9 split in two rows).
+PERMUTATION_MAX_TOTAL = 2**31 - 1
+
+
 @dataclass(frozen=True)
 class PermutationResult:
     """Monte Carlo permutation test of one measure with both margins fixed.
@@ -229,6 +236,8 @@ def permutation_test(
         Integer cell counts.
     measure : str
         One of the ordinal measure keys (``gamma``, ``somers_d_col_given_row``, ...).
+        On a 2 x 2 table gamma is Yule's Q and every measure orders the tables by ``n11``,
+        so this also tests the odds ratio, Q, Y and the risk difference and ratio.
     n_resamples : int
         Number of random tables.
     seed : int or numpy.random.Generator, optional
@@ -237,6 +246,14 @@ def permutation_test(
     Returns
     -------
     PermutationResult
+
+    Raises
+    ------
+    ValueError
+        For weighted totals, an undefined measure, a bad ``n_resamples`` or seed, or a table
+        total above :data:`PERMUTATION_MAX_TOTAL` (2**31 - 1 units), beyond which the random
+        table generator fails; at such sizes the asymptotic tests of ``measures()`` and
+        ``tests()`` are exact enough.
 
     Notes
     -----
@@ -261,6 +278,14 @@ def permutation_test(
         raise ValueError(
             "The permutation test needs whole-number counts; this table holds weighted totals. "
             "Use the delta-method intervals of measures() instead."
+        )
+    total = float(n.sum())
+    if total > PERMUTATION_MAX_TOTAL:
+        raise ValueError(
+            f"The table holds {total:,.0f} units; the permutation test draws random tables of "
+            f"at most {PERMUTATION_MAX_TOTAL:,} (2**31 - 1) units, beyond which the table "
+            "generator fails. At this size the large-sample p-values of measures() and tests() "
+            "are the right tool: use them instead."
         )
     whole = isinstance(n_resamples, (int, np.integer)) and not isinstance(n_resamples, bool)
     if not whole or n_resamples < 1:

@@ -225,7 +225,7 @@ def ordinal_measure_arrays(
     midrank scores, Agresti 2010, ch. 2); with survey weights it is the same variance rule
     applied to the gradient of the numerator under independence, ``u_i v_j`` (centred
     midranks) (Woodruff 1971): its ratio to the multinomial variance of as many records
-    drawn simply, a design effect (Kish 1965, sec. 8.2), multiplies ``1/(m - 1)``, ``m`` the
+    drawn simply, a design effect (Kish 1965), multiplies ``1/(m - 1)``, ``m`` the
     number of records, so constant weights give exactly the unweighted value.
 
     These formulas reproduce the published ones: for gamma, for instance,
