@@ -242,8 +242,8 @@ def sampling_note(total: float, squared: float) -> str:
     Returns
     -------
     str
-        The note; the effective size is ``(sum w)^2 / sum w^2`` (Kish 1965, Survey Sampling,
-        sec. 11.7), the number of unweighted records that would give about the same precision.
+        The note; the effective size is ``(sum w)^2 / sum w^2`` (Kish 1965, Survey
+        Sampling), the number of unweighted records that would give about the same precision.
     """
     size = f"{total**2 / squared:,.1f}" if squared > 0 else "undefined (no weight)"
     return (
@@ -298,7 +298,7 @@ def inference_frame(
 
     Notes
     -----
-    Wald intervals and z tests, as in Agresti (2010, sec. 7.1.3); the clipping to the
+    Wald intervals and z tests, as in Agresti (2010, ch. 7); the clipping to the
     measure's range is common practice.
     """
     size = len(keys)

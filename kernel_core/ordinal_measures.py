@@ -6,10 +6,11 @@ gradient ``g_ij`` with respect to the cell counts, and
 
     Var = sum_ij s_ij g_ij^2 - (sum_ij n_ij g_ij)^2 / m
 
-where, for multinomial sampling, ``s_ij = n_ij`` and ``m = n`` (Agresti 2010, sec. 7.1.3 and
-appendix on the delta method); with survey weights ``n_ij`` is the sum of weights in the cell,
-``s_ij`` the sum of squared weights and ``m`` the number of records, which is the Taylor
-linearisation of a with-replacement single-stage sample (Woodruff 1971, JASA 66:411). The
+where, for multinomial sampling, ``s_ij = n_ij`` and ``m = n`` (Agresti 2010, ch. 7;
+the delta method as in Agresti 2013, sec. 16.1); with survey weights ``n_ij`` is the sum of
+weights in the cell, ``s_ij`` the sum of squared weights and ``m`` the number of records,
+which is the Taylor linearisation of a with-replacement single-stage sample (Woodruff 1971,
+JASA 66:411). The
 second term vanishes for measures invariant to the scale of the table (Euler's theorem) but is
 kept because it is what makes the null standard errors right.
 """
@@ -73,7 +74,8 @@ def delta_variance(counts: np.ndarray, grad: np.ndarray, sampling: Sampling) -> 
 
     References
     ----------
-    Agresti, A. (2010). Analysis of Ordinal Categorical Data, 2nd ed., sec. 7.1.3.
+    Agresti, A. (2010). Analysis of Ordinal Categorical Data, 2nd ed., Wiley, ch. 7.
+    Agresti, A. (2013). Categorical Data Analysis, 3rd ed., Wiley, sec. 16.1.
     Woodruff, R. S. (1971). A simple method for approximating the variance of a complicated
     estimate. JASA 66, 411-414.
     """

@@ -28,7 +28,7 @@ def tables_with_margins(rows, cols):
 
 def exact_permutation_p(counts, measure: str) -> float:
     # Source: exact conditional distribution given both margins, the multivariate
-    # hypergeometric P(table) = prod r_i! prod c_j! / (n! prod n_ij!) (Agresti 2013, sec. 3.5),
+    # hypergeometric P(table) = prod r_i! prod c_j! / (n! prod n_ij!) (Agresti 2013, ch. 3),
     # summed over every table at least as extreme, by full enumeration.
     rows, cols = counts.sum(axis=1), counts.sum(axis=0)
     n = int(counts.sum())
@@ -56,7 +56,7 @@ def test_monte_carlo_p_value_is_close_to_the_exact_one(measure):
 
 
 def test_p_value_is_counted_as_published():
-    # Source: Davison & Hinkley (1997, sec. 4.2): p = (1 + #{|T*| >= |T|}) / (B + 1).
+    # Source: Davison & Hinkley (1997, ch. 4): p = (1 + #{|T*| >= |T|}) / (B + 1).
     result = rankfold.table_from_counts(SMALL).permutation_test("gamma", n_resamples=500, seed=1)
     count = int(np.sum(np.abs(result.null_distribution) >= abs(result.statistic) - 1e-12))
     assert result.p_value == (1 + count) / 501

@@ -316,7 +316,7 @@ def test_engine_counts_stay_exact_at_population_scale():
     t = rankfold.table(relation, "a", "b", weight="units")
     assert t.cells.dtype == np.int64
     assert t.counts.to_numpy().tolist() == [[10**11, 3], [5, 10**11 + 7]]
-    # 2 x 2 case of Agresti (2010, sec. 7.1.1): C = n11 n22, D = n12 n21.
+    # 2 x 2 case of Agresti (2010, ch. 7): C = n11 n22, D = n12 n21.
     assert t.pairs()["concordant"] == 10**11 * (10**11 + 7)
     assert t.pairs()["discordant"] == 15
 
@@ -356,7 +356,7 @@ def test_measures_scale_with_counts_times_ten_to_the_nine():
     large = large_table.measures()
     # Every measure here is a function of the cell proportions only (common practice).
     np.testing.assert_allclose(large["estimate"], small["estimate"], rtol=1e-10)
-    # Delta-method standard errors shrink as 1/sqrt(n) (Agresti 2010, sec. 7.1.3).
+    # Delta-method standard errors shrink as 1/sqrt(n) (Agresti 2010, ch. 7).
     np.testing.assert_allclose(large["std_error"], small["std_error"] * 10**-4.5, rtol=1e-8)
     null = [k for k in small.index if k not in ("spearman_rho", "cramers_v")]
     np.testing.assert_allclose(large.loc[null, "std_error_null"],

@@ -83,7 +83,7 @@ def test_risk_difference_interval_and_pooled_test_match_statsmodels(counts):
 @pytest.mark.parametrize("counts", WITH_ZERO, ids=str)
 def test_zero_cell_adds_one_half_to_every_cell_and_says_so(counts):
     frame = frame_of(counts)
-    # Source: Haldane (1956) / Agresti (2013, sec. 3.1.1): with a zero cell, the odds ratio is
+    # Source: Haldane (1956) / Agresti (2013, ch. 3): with a zero cell, the odds ratio is
     # computed on the table plus 0.5 in every cell; the log-scale error is sqrt(sum 1/(n+0.5)).
     (a, b), (c, d) = counts + 0.5
     assert frame.loc["odds_ratio", "estimate"] == pytest.approx(a * d / (b * c))

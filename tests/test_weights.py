@@ -130,7 +130,7 @@ def test_kish_effective_size_in_notes(survey):
     t = rankfold.table(survey, "trip", "rating", control="region", weight="w",
                        weight_kind="sampling")
     w = survey["w"]
-    # Kish (1965, Survey Sampling, sec. 11.7): n_eff = (sum w)^2 / sum w^2
+    # Kish (1965, Survey Sampling): n_eff = (sum w)^2 / sum w^2
     kish = w.sum() ** 2 / (w**2).sum()
     assert f"Kish effective n = {kish:,.1f}" in t.measures().loc["gamma", "note"]
     for label, part in survey.groupby("region")["w"]:
