@@ -116,10 +116,14 @@ def test_delta_standard_errors_match_numerical_gradients(counts):
     # of the core.
     n = counts.astype(float) + 0.5  # keep every cell away from 0 for the downward step
     grads = numerical_gradient(reference_estimates, n)
-    arrays = ordinal_measure_arrays(n)
+    arrays = ordinal_measure_arrays(n, gradients=True)
     for key in ALL_KEYS:
         fd_se = np.sqrt(delta_variance(n, grads[key], Sampling()))
         assert float(arrays[key]["std_error"]) == pytest.approx(fd_se, rel=1e-6), key
+        # the gradient handed back for the delta method of several measures is the same one
+        scale = np.abs(grads[key]).max()
+        np.testing.assert_allclose(arrays[key]["gradient"], grads[key], rtol=0,
+                                   atol=1e-6 * scale, err_msg=key)
 
 
 @pytest.mark.parametrize("counts", TABLES[:4], ids=str)
