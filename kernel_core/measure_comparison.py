@@ -40,7 +40,7 @@ def compare_measures(
     The two estimates come from the same units, so their intervals are not independent and
     overlapping intervals say nothing about whether the coding "matters"; the change is shown
     to describe, not to test (common practice). Merging categories turns pairs into ties, which
-    moves gamma most (Agresti 2010, sec. 7.1.4).
+    moves gamma most (Agresti 2010, ch. 7).
 
     References
     ----------

@@ -156,7 +156,7 @@ class OrdinalTable:
         Notes
         -----
         Counted on the table pooled over the control variable; the formulas and their source are in
-        :func:`rankfold.concordance.pair_counts` (Agresti 2010, sec. 7.1.1).
+        :func:`rankfold.concordance.pair_counts` (Agresti 2010, ch. 7).
         """
         return pair_counts(self._pooled())
 
@@ -254,7 +254,7 @@ class OrdinalTable:
         -----
         Tables are drawn and the p-value counted as in
         :func:`rankfold.independence.permutation_test` (Patefield 1981; Davison & Hinkley
-        1997, sec. 4.2), which lists the references.
+        1997, ch. 4), which lists the references.
         """
         if self.weight_kind == "sampling":
             raise ValueError(

@@ -241,3 +241,27 @@ def test_yules_q_is_gamma_on_every_two_by_two_table(counts):
         assert q[column] == pytest.approx(gamma[column], abs=1e-12, nan_ok=True), column
     assert ("at its bound" in q["note"]) == ("at its bound" in gamma["note"]) == (b * c == 0
                                                                                 or a * d == 0)
+
+
+def test_weighted_zero_cell_adjustment_is_half_an_average_record():
+    # Haldane's 0.5 is in units of records: with constant sampling weights the adjusted odds
+    # ratio, its error and interval equal the unweighted ones (statsmodels Table2x2 on the
+    # table plus 0.5), and multiplying the weights by 1000 changes nothing.
+    records = pd.DataFrame({"g": ["a"] * 13 + ["b"] * 10,
+                            "o": ["yes"] * 13 + ["yes"] * 4 + ["no"] * 6})
+
+    def odds_row(w):
+        return rankfold.table(records.assign(w=w), "g", "o", weight="w", weight_kind="sampling",
+                              order={"g": ["a", "b"], "o": ["yes", "no"]}).measures().loc[
+            "odds_ratio"]
+
+    reference = Table2x2(np.array([[13, 0], [4, 6]]) + 0.5, shift_zeros=False)
+    constant = odds_row(2.0)
+    assert_ratio_row(constant, reference.oddsratio, reference.log_oddsratio_se,
+                     reference.oddsratio_confint(alpha=0.05))
+    assert "half an average record" in constant["note"]
+    varied = records.index.to_numpy() % 3 + 1.0
+    np.testing.assert_allclose(odds_row(varied * 1000)[["estimate", "std_error", "ci_low"]]
+                               .astype(float), odds_row(varied)[["estimate", "std_error",
+                                                                  "ci_low"]].astype(float),
+                               rtol=1e-9)
