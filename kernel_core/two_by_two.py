@@ -13,6 +13,9 @@ from .ordinal_measures import Sampling, delta_variance
 
 __all__ = ["two_by_two_measures"]
 
+#: Signs of the log odds ratio's gradient ``+/-1/n_ij``: + on the diagonal.
+SIGNS = np.array([[1.0, -1.0], [-1.0, 1.0]])
+
 
 def two_by_two_measures(
     counts: np.ndarray, sampling: Sampling | None = None
@@ -150,10 +153,10 @@ def two_by_two_measures(
         rr_note = "" if a > 0 and c > 0 else (
             "a first-column cell is zero: the relative risk is 0 or infinite, with no finite "
             "logarithm or error")
-        rr_grad = np.array([[1 / a, 0.0], [-1 / c, 0.0]]) - np.array([[1.0], [-1.0]]) / rows[
-            :, None]
-        rr_null = np.array([[1 / expected[0, 0], 0.0], [-1 / expected[1, 0], 0.0]]) - np.array(
-            [[1.0], [-1.0]]) / rows[:, None]
+        rr_grad = np.array([[1 / a - 1 / rows[0], -1 / rows[0]],
+                            [-1 / c + 1 / rows[1], 1 / rows[1]]])
+        rr_null = np.array([[1 / expected[0, 0] - 1 / rows[0], -1 / rows[0]],
+                            [-1 / expected[1, 0] + 1 / rows[1], 1 / rows[1]]])
         out["relative_risk"] = _entry(
             p1 / p2 if not rr_note else np.nan,
             se(n, rr_grad, sampling) if not rr_note else np.nan,
@@ -169,9 +172,6 @@ def two_by_two_measures(
             measure["std_error"] = measure["std_error_null"] = np.nan
             measure["on_bound"] = False
     return out
-
-
-SIGNS = np.array([[1.0, -1.0], [-1.0, 1.0]])
 
 
 def _entry(estimate, std_error, std_error_null, gradient, *, log_scale=False, on_bound=False,
