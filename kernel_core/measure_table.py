@@ -50,7 +50,7 @@ def measure_label(key: str, row_name: str, col_name: str) -> str:
     """
     labels = {
         "gamma": "Goodman–Kruskal gamma",
-        "partial_gamma": "partial gamma (levels held fixed)",
+        "partial_gamma": "partial gamma (within levels)",
         "somers_d_col_given_row": f"Somers' d ({col_name} | {row_name})",
         "somers_d_row_given_col": f"Somers' d ({row_name} | {col_name})",
         "somers_d_symmetric": "Somers' d (symmetric)",
