@@ -15,10 +15,12 @@ from collections.abc import Sequence
 import numpy as np
 import pandas as pd
 
+from .control_variable import partial_gamma_arrays
 from .measure_table import _cramers_v, interval_quantile, normal_p_value
 from .ordinal_measures import Sampling, delta_variance, ordinal_measure_arrays
 from .ordinal_table import OrdinalTable
 from .polychoric import polychoric_arrays
+from .two_by_two import two_by_two_measures
 
 __all__ = ["CHANGE_COLUMNS", "coding_change", "expand_gradient", "measure_gradients",
            "same_collected"]
@@ -69,7 +71,7 @@ def expand_gradient(gradient: np.ndarray, rows: np.ndarray, cols: np.ndarray) ->
     ----------
     gradient : ndarray, shape (..., I', J')
         Derivative of a measure in each coded cell.
-    rows, cols : ndarray of int, shapes (..., I) and (..., J)
+    rows, cols : ndarray of int, shapes (I,) and (J,)
         Where each collected category went (``-1``: left out), as
         :meth:`OrdinalTable.coding_maps`.
 
@@ -81,13 +83,8 @@ def expand_gradient(gradient: np.ndarray, rows: np.ndarray, cols: np.ndarray) ->
     """
     g = np.asarray(gradient, dtype=float)
     rows, cols = np.asarray(rows), np.asarray(cols)
-    r_safe, c_safe = np.maximum(rows, 0), np.maximum(cols, 0)
-    picked = np.take_along_axis(g, np.broadcast_to(r_safe[..., :, None],
-                                                   (*r_safe.shape, g.shape[-1])), axis=-2)
-    picked = np.take_along_axis(picked, np.broadcast_to(c_safe[..., None, :],
-                                                        (*picked.shape[:-1], c_safe.shape[-1])),
-                                axis=-1)
-    kept = (rows >= 0)[..., :, None] & (cols >= 0)[..., None, :]
+    picked = g[..., np.maximum(rows, 0)[:, None], np.maximum(cols, 0)[None, :]]
+    kept = (rows >= 0)[:, None] & (cols >= 0)[None, :]
     return np.where(kept, picked, 0.0)
 
 
@@ -96,6 +93,16 @@ def _pooled(table: OrdinalTable) -> tuple[np.ndarray, Sampling]:
     if table.squared_weights is None:
         return counts, Sampling()
     return counts, Sampling(table.squared_weights.sum(axis=0), float(table.records.sum()))
+
+
+def _whole(table: OrdinalTable) -> tuple[np.ndarray, Sampling]:
+    """Every cell of every level as one table (K * I, J): one sample, whatever the level."""
+    def flat(cells: np.ndarray) -> np.ndarray:
+        return np.asarray(cells, dtype=float).reshape(-1, cells.shape[-1])
+
+    if table.squared_weights is None:
+        return flat(table.cells), Sampling()
+    return flat(table.cells), Sampling(flat(table.squared_weights), float(table.records.sum()))
 
 
 def measure_gradients(table: OrdinalTable) -> dict[str, dict]:
@@ -109,9 +116,10 @@ def measure_gradients(table: OrdinalTable) -> dict[str, dict]:
     -------
     dict
         For each measure key that has a gradient: ``estimate`` and ``note`` as in
-        ``table.measures()``, ``gradient`` (derivative in each cell of the table pooled over
-        the control variable, shape (I, J)) and ``log_scale`` (True where the errors refer to
-        the logarithm of the estimate).
+        ``table.measures()`` (and ``partial_gamma`` as in ``table.partial_measures()`` when
+        there is a control variable), ``gradient`` (derivative in each cell, shape (K, I, J);
+        the same in every level for the pooled measures) and ``log_scale`` (True where the
+        errors refer to the logarithm of the estimate).
     """
     measures = table.measures()
     counts, sampling = _pooled(table)
@@ -120,12 +128,28 @@ def measure_gradients(table: OrdinalTable) -> dict[str, dict]:
     gradients["polychoric"] = polychoric_arrays(counts, sampling)["gradient"]
     if min((counts.sum(axis=1) > 0).sum(), (counts.sum(axis=0) > 0).sum()) >= 2:
         gradients["cramers_v"] = _cramers_v(counts, sampling)["gradient"]
-    return {
+    log_scale = dict.fromkeys(gradients, False)
+    if counts.shape == (2, 2) and counts.sum() > 0:
+        for key, found in two_by_two_measures(counts, sampling).items():
+            gradients[key], log_scale[key] = found["gradient"], bool(found["log_scale"])
+    levels = table.cells.shape[0]
+    out = {
         key: {"estimate": float(measures.loc[key, "estimate"]),
               "note": str(measures.loc[key, "note"]),
-              "gradient": gradient, "log_scale": False}
+              "gradient": np.broadcast_to(gradient, (levels, *gradient.shape)),
+              "log_scale": log_scale[key]}
         for key, gradient in gradients.items() if key in measures.index
     }
+    if table.control_name is not None:
+        partial = table.partial_measures().loc["partial_gamma"]
+        weights = None if table.squared_weights is None else Sampling(
+            table.squared_weights, np.asarray(table.records, float).sum(axis=(-2, -1)))
+        out["partial_gamma"] = {
+            "estimate": float(partial["estimate"]), "note": str(partial["note"]),
+            "gradient": partial_gamma_arrays(table.cells, weights)["gradient"],
+            "log_scale": False,
+        }
+    return out
 
 
 def _change_frame(keys: Sequence[str], change, se, notes, crit: float,
@@ -186,7 +210,8 @@ def coding_change(
     With ``n`` the collected counts and ``A``, ``B`` the codings, ``Delta = f(B n) - f(A n)``
     has gradient ``D = B^T grad f(B n) - A^T grad f(A n)`` (each coded cell's derivative
     carried back to the collected cells it sums; 0 for cells left out), and
-    ``Var(Delta) = sum s D^2 - (sum n D)^2 / m`` over the collected cells (the delta method
+    ``Var(Delta) = sum s D^2 - (sum n D)^2 / m`` over the collected cells of every level of
+    the control variable, if any, as one sample (the level of a unit is random; the delta method
     for a function of multinomial counts, Agresti 2013, sec. 16.1; with sampling weights ``s``
     the squared weights and ``m`` the records, a linearisation after Woodruff 1971). Both
     codings come from the same units, so this is far smaller than ``sqrt(SE_a^2 + SE_b^2)``
@@ -215,7 +240,7 @@ def coding_change(
     if not same_collected(before, after):
         return _change_frame(keys, change, [np.nan] * len(keys), [UNRELATED] * len(keys), crit,
                              log_scale)
-    counts, sampling = _pooled(before.collected)
+    counts, sampling = _whole(before.collected)
     maps_a, maps_b = before.coding_maps(), after.coding_maps()
     ses, notes = [], []
     for k in keys:
@@ -228,6 +253,7 @@ def coding_change(
             continue
         difference = expand_gradient(b["gradient"], *maps_b) - expand_gradient(
             a["gradient"], *maps_a)
+        difference = difference.reshape(counts.shape)  # (K, I, J) -> (K * I, J)
         ses.append(float(np.sqrt(delta_variance(counts, difference, sampling))))
         notes.append("standard error, test and interval of the change of the logarithm"
                      if b["log_scale"] else "")

@@ -590,7 +590,8 @@ def sweep(
         only for merges of the column variable: merging rows changes what one step means);
         and, for a table with a control variable, ``"partial_gamma"`` (within-level pairs
         pooled, Davis 1967, JASA 62:189; see
-        :func:`rankfold.control_variable.partial_gamma_arrays`).
+        :func:`rankfold.control_variable.partial_gamma_arrays`; its standard error takes the
+        level of each unit as random, the default of ``partial_measures()``).
     max_schemes : int or None
         Refuse (with a ValueError saying what to do instead) when there are more codings than
         this; None for no limit. The default admits a full 10 x 10 sweep (261,121 codings).

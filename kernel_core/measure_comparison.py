@@ -33,7 +33,7 @@ def compare_measures(
     before, after : OrdinalTable or pandas.DataFrame
         Two codings (for example the table as collected and after merging categories), or
         their results of :meth:`OrdinalTable.measures`. Only tables give the change a
-        standard error.
+        standard error; two tables with a control variable also compare partial gamma.
     keys : str or sequence of str, optional
         Measure keys to keep, in this order; default: the keys present in both, in the order
         of ``after``.
@@ -57,7 +57,7 @@ def compare_measures(
     The two estimates come from the same units, so their intervals are not independent and
     overlapping intervals say nothing about whether the coding "matters"; the paired standard
     error accounts for the shared units (Agresti 2013, sec. 16.1). Merging categories turns
-    pairs into ties, which moves gamma most (Agresti 2010, sec. 7.1.4).
+    pairs into ties, which moves gamma most (Agresti 2010, ch. 7).
 
     References
     ----------
@@ -66,7 +66,13 @@ def compare_measures(
     tables = isinstance(before, OrdinalTable) and isinstance(after, OrdinalTable)
     if tables:
         pair = (before, after)
-        before, after = before.measures(confidence), after.measures(confidence)
+        frames = []
+        for table in pair:
+            frame = table.measures(confidence)
+            if before.control_name is not None and after.control_name is not None:
+                frame = pd.concat([frame, table.partial_measures(confidence)])
+            frames.append(frame)
+        before, after = frames
     elif isinstance(before, OrdinalTable) or isinstance(after, OrdinalTable):
         raise ValueError("compare_measures takes two tables or two measures results, not one "
                          "of each.")

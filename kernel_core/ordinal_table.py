@@ -190,7 +190,7 @@ class OrdinalTable:
         Notes
         -----
         Counted on the table pooled over the control variable; the formulas and their source are in
-        :func:`rankfold.concordance.pair_counts` (Agresti 2010, sec. 7.1.1).
+        :func:`rankfold.concordance.pair_counts` (Agresti 2010, ch. 7).
         """
         return pair_counts(self._pooled())
 
@@ -216,9 +216,15 @@ class OrdinalTable:
         ``std_error`` is the delta-method asymptotic standard error and the interval is
         ``estimate +/- z_(1-alpha/2) std_error`` clipped to the measure's range;
         ``std_error_null`` is the standard error under independence, ``z`` = estimate /
-        ``std_error_null`` and ``p_value`` is two-sided normal. Formulas and sources are in
-        :func:`rankfold.ordinal_measures.ordinal_measure_arrays`; undefined measures are NaN
-        with the reason in ``note``. An association is not evidence of a cause, and choosing
+        ``std_error_null`` and ``p_value`` is two-sided normal. For the ratio measures
+        (``odds_ratio``, ``relative_risk``) both standard errors and ``z`` refer to the
+        logarithm of the estimate, and the interval is ``exp(log(estimate) +/- z_(1-alpha/2)
+        std_error)``. An estimate on an end of its range (gamma = +/-1 when no pair is
+        discordant, say) has no delta-method interval: NaN, with a note. With a control
+        variable the table is pooled over its levels and treated as one sample. Formulas and
+        sources are in :func:`rankfold.ordinal_measures.ordinal_measure_arrays` and
+        :func:`rankfold.two_by_two.two_by_two_measures`; undefined measures are NaN with the
+        reason in ``note``. An association is not evidence of a cause, and choosing
         a coding because it gives the strongest value inflates false findings.
 
         References
@@ -292,7 +298,7 @@ class OrdinalTable:
         -----
         Tables are drawn and the p-value counted as in
         :func:`rankfold.independence.permutation_test` (Patefield 1981; Davison & Hinkley
-        1997, sec. 4.2), which lists the references.
+        1997, ch. 4), which lists the references.
         """
         if self.weight_kind == "sampling":
             raise ValueError(
@@ -362,7 +368,9 @@ class OrdinalTable:
         """
         return control_measures(self, confidence)
 
-    def partial_measures(self, confidence: float = 0.95) -> pd.DataFrame:
+    def partial_measures(
+        self, confidence: float = 0.95, control_totals: str = "random"
+    ) -> pd.DataFrame:
         """Partial gamma: the association within levels, pooled (Davis 1967, JASA 62:189).
 
         Compare with :meth:`control_measures` and the ``gamma_homogeneity`` row of :meth:`tests`
@@ -372,6 +380,11 @@ class OrdinalTable:
         ----------
         confidence : float
             Level of its Wald interval, strictly between 0 and 1.
+        control_totals : {'random', 'fixed'}
+            How the level sizes arose, for the standard error: ``"random"`` (default; the
+            level of a unit is random, one multinomial over every cell, or with sampling
+            weights all records one sample) or ``"fixed"`` (sizes fixed by the design:
+            each level a sample of its own).
 
         Returns
         -------
@@ -384,7 +397,7 @@ class OrdinalTable:
         Davis, J. A. (1967). A partial coefficient for Goodman and Kruskal's gamma. JASA 62,
         189-193.
         """
-        return partial_measures(self, confidence)
+        return partial_measures(self, confidence, control_totals)
 
     def cumulative_logit(
         self,

@@ -17,7 +17,7 @@ import numpy as np
 import pandas as pd
 
 from .collapsing import _sparse_columns, rule_met, sweep
-from .control_variable import partial_gamma_arrays
+from .control_variable import partial_design_note, partial_gamma_arrays
 from .counting import (
     _weights,
     check_columns,
@@ -288,14 +288,20 @@ def _measure_batch(batch: _PairCells, measure: str, controlled: bool) -> dict[st
     undefined = reasons != ""
     result = {key: np.where(undefined, np.nan, found[key])
               for key in ("estimate", "std_error", "std_error_null")}
-    if batch.squared is not None:
-        extra = [sampling_note(float(t), float(s))
-                 for t, s in zip(pooled.sum(axis=(-2, -1)), batch.squared.sum(axis=(-3, -2, -1)),
-                                 strict=True)]
-        if controlled:
-            extra = [f"{e}; each level's records a sample of their own" for e in extra]
-        reasons = np.array([f"{r}; {e}" if r else e for r, e in zip(reasons, extra, strict=True)],
-                           dtype=object)
+    result["on_bound"] = found["on_bound"] & ~undefined
+    totals = pooled.sum(axis=(-2, -1))
+    squares = (np.full(len(totals), np.nan) if batch.squared is None
+               else batch.squared.sum(axis=(-3, -2, -1)))
+    if controlled:
+        extra = [partial_design_note("random", None if batch.squared is None else (t, s))
+                 for t, s in zip(totals, squares, strict=True)]
+    elif batch.squared is not None:
+        extra = [sampling_note(float(t), float(s)) for t, s in zip(totals, squares, strict=True)]
+    else:
+        extra = [""] * len(totals)
+    reasons = np.array(["; ".join(x for x in (r, e) if x) for r, e in zip(reasons, extra,
+                                                                         strict=True)],
+                       dtype=object)
     result["reason"] = reasons
     observed = pooled if batch.records is None else batch.records.sum(axis=1)
     result["sparse"] = ~rule_met(_sparse_columns(observed), "cochran")
@@ -512,6 +518,7 @@ def overview(
     inference = inference_frame(
         [key] * len(where), merged["estimate"], merged["std_error"], merged["std_error_null"],
         list(merged["reason"]), crit=interval_quantile(0.95),
+        on_bound=list(merged["on_bound"]),
     )
     flagged = {c.name: _non_substantive_labels(c.labels) for c in cols}
     var_a = [cols[a].name for a in merged["a"]]

@@ -176,3 +176,76 @@ def test_sweep_changes_equal_the_paired_change_of_each_coding(table):
     # the coding that merges nothing is the table itself: no change, no error
     whole = frame[(frame["n_rows"] == len(ROWS)) & (frame["n_cols"] == len(COLS))].iloc[0]
     assert whole["gamma_change"] == 0 and whole["gamma_change_se"] == pytest.approx(0, abs=1e-12)
+
+
+def pairs_by_level(cells: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Concordant and discordant pairs within each level, from reversed cumulative sums
+    (written here, independent of the package): (..., K, I, J) -> (..., K) each."""
+    def below_right(x):  # sum over a > i, b > j
+        s = np.flip(np.cumsum(np.cumsum(np.flip(x, (-2, -1)), -2), -1), (-2, -1))
+        out = np.zeros_like(x)
+        out[..., :-1, :-1] = s[..., 1:, 1:]
+        return out
+
+    concordant = (cells * below_right(cells)).sum(axis=(-2, -1))
+    discordant = (cells * np.flip(below_right(np.flip(cells, -1)), -1)).sum(axis=(-2, -1))
+    return concordant, discordant
+
+
+def test_partial_gamma_change_matches_resamples_with_random_levels():
+    # Reference: simulation drawing each unit's level at random (one multinomial over the
+    # K x I x J cells of an invented three-level table), partial gamma from pair counts
+    # (Davis 1967) written in this test.
+    rng = np.random.default_rng(31)
+    cells = np.stack([COLLECTED[:, :4] * f for f in (0.5, 0.3, 0.2)]).round()
+    t = rankfold.table_from_counts(cells[0], row_labels=ROWS, col_labels=COLS[:4])
+    frame = pd.DataFrame(
+        [(lvl, r, c) for lvl in range(3) for i, r in enumerate(ROWS)
+         for j, c in enumerate(COLS[:4]) for _ in range(int(cells[lvl, i, j]))],
+        columns=["level", "row", "col"])
+    t = rankfold.table(frame, "row", "col", control="level",
+                       order={"row": ROWS, "col": COLS[:4]})
+    coded = t.merge("rows", [["r1", "r2"]]).exclude("cols", ["c4"])
+    found = coding_change(t, coded).loc["partial_gamma"]
+    n = int(cells.sum())
+    draws = rng.multinomial(n, (cells / n).ravel(), size=4000).reshape(-1, *cells.shape)
+    rows, cols = coded.coding_maps()
+    recoded = np.zeros((len(draws), 3, *coded.shape))
+    for a, i in enumerate(rows):
+        for b, j in enumerate(cols):
+            if i >= 0 and j >= 0:
+                recoded[:, :, i, j] += draws[:, :, a, b]
+
+    def partial(x):
+        p, q = pairs_by_level(x.astype(float))
+        return (p.sum(-1) - q.sum(-1)) / (p.sum(-1) + q.sum(-1))
+
+    spread = np.std(partial(recoded) - partial(draws), ddof=1)
+    assert found["change_se"] == pytest.approx(spread, rel=0.05)
+    assert rankfold.compare_measures(t, coded).loc["partial_gamma", "change_se"] == (
+        pytest.approx(found["change_se"]))
+
+
+def test_two_by_two_measures_change_between_two_codings():
+    # A 2 x 3 table coded two ways into 2 x 2: the third column left out, or merged into the
+    # second. Reference: 4,000 multinomial resamples, log odds ratio and Yule's Q computed
+    # here from the cross-product ratio (Yule 1912).
+    counts = np.array([[60.0, 35, 25], [30, 45, 55]])
+    t = rankfold.table_from_counts(counts, row_labels=["a", "b"], col_labels=["x", "y", "z"])
+    left_out, merged = t.exclude("cols", ["z"]), t.merge("cols", [["y", "z"]])
+    found = coding_change(left_out, merged)
+    rng = np.random.default_rng(5)
+    n = int(counts.sum())
+    draws = rng.multinomial(n, (counts / n).ravel(), size=4000).reshape(-1, 2, 3).astype(float)
+
+    def log_odds(x):
+        return np.log(x[:, 0, 0] * x[:, 1, 1] / (x[:, 0, 1] * x[:, 1, 0]))
+
+    first = draws[:, :, :2]
+    second = np.stack([draws[:, :, 0], draws[:, :, 1] + draws[:, :, 2]], axis=-1)
+    spread = np.std(log_odds(second) - log_odds(first), ddof=1)
+    assert found.loc["odds_ratio", "change_se"] == pytest.approx(spread, rel=0.05)
+    q = [np.tanh(log_odds(x) / 2) for x in (first, second)]  # Q = (OR - 1)/(OR + 1)
+    assert found.loc["yules_q", "change_se"] == pytest.approx(np.std(q[1] - q[0], ddof=1),
+                                                              rel=0.05)
+    assert "logarithm" in found.loc["odds_ratio", "change_note"]

@@ -47,7 +47,7 @@ def test_tests_use_the_textbook_keys_and_none_of_the_old_ones(riders):
 def test_every_test_key_has_a_readable_label(riders):
     controlled = rankfold.table(riders, "trip_length", "service_rating", control="age_band").tests()
     labels = {key: rankfold.independence_label(key) for key in controlled.index}
-    # Agresti, Categorical Data Analysis (3rd ed., 2013), sec. 3.2 and 3.4: X², G², M².
+    # Agresti, Categorical Data Analysis (3rd ed., 2013), ch. 3: X², G², M².
     assert labels["pearson_x2"] == "Pearson X²"
     assert labels["likelihood_ratio_g2"] == "likelihood-ratio G²"
     assert labels["trend_m2"] == "linear trend M² = (n − 1) r²"
