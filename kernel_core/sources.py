@@ -204,20 +204,37 @@ def _duckdb_schema(source: Any) -> pd.DataFrame:
 def _duckdb_lines(source: Any, request: Request) -> pd.DataFrame:
     with _relation(source) as relation:
         request.check(relation.limit(0).df())
-        aggregates = [f"count(*) AS {RECORDS}"]
-        if request.weight is not None:
-            w = f"TRY_CAST({_quote(request.weight)} AS DOUBLE)"
-            aggregates += [
-                f"sum({w}) AS {WEIGHT_SUM}",
-                f"sum({w} * {w}) AS {SQUARE_SUM}",
+        group = ", ".join(_quote(k) for k in request.keys)
+
+        def grouped(aggregates: list[str]) -> pd.DataFrame:
+            query = relation.aggregate(f"{group}, {', '.join(aggregates)}", group)
+            return query.limit(MAX_LINES + 1).df()
+
+        if request.weight is None:
+            return grouped([f"count(*) AS {RECORDS}"])
+        w = f"TRY_CAST({_quote(request.weight)} AS DOUBLE)"
+        sums = [f"count(*) AS {RECORDS}", f"sum({w}) AS {WEIGHT_SUM}",
+                f"sum({w} * {w}) AS {SQUARE_SUM}"]
+        # Cheap checks first: the smallest and largest weight (DuckDB sorts NaN above every
+        # number), how many are present, and the sum of fractional parts (each >= 0, so it is
+        # positive exactly when some weight is not whole).
+        lines = grouped([*sums, f"min({w}) AS low", f"max({w}) AS high",
+                         f"count({w}) AS present", f"sum({w} - floor({w})) AS fraction"])
+        high, low = lines["high"].to_numpy(float), lines["low"].to_numpy(float)
+        doubtful = ((lines["present"] < lines[RECORDS]).any() or np.isnan(high).any()
+                    or np.isinf(high).any() or np.isinf(low).any() or (low < 0).any())
+        if doubtful:  # only then count the bad weights exactly, for the error message
+            return grouped([
+                *sums,
                 f"count(*) FILTER (WHERE {w} <> floor({w})) AS {FRACTIONAL}",
                 f"count(*) FILTER (WHERE {w} IS NULL OR isnan({w})) AS {BAD_NAN}",
                 f"count(*) FILTER (WHERE isinf({w})) AS {BAD_INF}",
                 f"count(*) FILTER (WHERE {w} < 0) AS {BAD_NEG}",
-            ]
-        group = ", ".join(_quote(k) for k in request.keys)
-        grouped = relation.aggregate(f"{group}, {', '.join(aggregates)}", group)
-        return grouped.limit(MAX_LINES + 1).df()
+            ])
+        lines[FRACTIONAL] = (lines["fraction"] > 0).astype(np.int64)
+        for name in (BAD_NAN, BAD_INF, BAD_NEG):
+            lines[name] = 0
+        return lines.drop(columns=["low", "high", "present", "fraction"])
 
 
 #: For each engine: (column types without reading records, the group-by count).
