@@ -111,7 +111,9 @@ def _aggregate_frame(frame: Any, keys: list[str], weight: str | None, numeric: A
             BAD_INF: (w.abs() == np.inf).astype("int64"),
             BAD_NEG: (w < 0).astype("int64"),
         }
-    return frame[keys].assign(**parts).groupby(keys, dropna=False, observed=True).sum()
+    # split_out=1: one tree reduction to a single small result (no shuffle between workers)
+    grouped = frame[keys].assign(**parts).groupby(keys, dropna=False, observed=True)
+    return grouped.sum(split_out=1)
 
 
 def _dask_schema(frame: Any) -> pd.DataFrame:
