@@ -2,7 +2,8 @@
 
 The computation core: ordered tables, concordance-based measures with standard errors and
 tests, and category merging. It depends on numpy, pandas and scipy only; the notebook explorer
-lives in :mod:`rankfold.widgets` and is imported only when :func:`explore` is first used.
+lives in :mod:`rankfold.widgets` and is imported only when :func:`explore` (or :func:`report`,
+the one-file HTML report) is first used.
 """
 
 from __future__ import annotations
@@ -43,6 +44,7 @@ __all__ = [
     "measure_label",
     "pair_counts",
     "pair_regions",
+    "report",
     "suggest_collapsing",
     "sweep",
     "sweep_chunks",
@@ -58,4 +60,8 @@ def __getattr__(name: str) -> Any:
         from .widgets import explore
 
         return explore
+    if name == "report":  # draws its charts with altair and vl-convert
+        from .widgets.report import report
+
+        return report
     raise AttributeError(f"module 'rankfold' has no attribute {name!r}")
