@@ -37,8 +37,11 @@ RECORD_STYLE = """<style>
   margin: 4px 0; }
 .rankfold-record th, .rankfold-record td { padding: 2px 8px; text-align: right;
   border-bottom: 1px solid rgba(128, 128, 128, 0.35); }
-.rankfold-record th[scope=row], .rankfold-record td.rankfold-note { text-align: left; }
-.rankfold-record td.rankfold-note { font-size: 90%; max-width: 30em; }
+.rankfold-record td { white-space: nowrap; }
+.rankfold-record th[scope=row], .rankfold-record td.rankfold-note,
+.rankfold-record thead th:first-child { text-align: left; }
+.rankfold-record th[scope=row] { font-weight: normal; }
+.rankfold-record td.rankfold-note { font-size: 90%; max-width: 30em; white-space: normal; }
 .rankfold-record .rankfold-warning { padding: 4px 8px; margin: 6px 0;
   border-left: 4px solid #d08a00; }
 .rankfold-record .rankfold-formula { font-family: ui-monospace, monospace; }
