@@ -24,6 +24,16 @@ if TYPE_CHECKING:
 
 __all__ = ["computation_html", "ComputationSection", "number"]
 
+_STYLE = """<style>
+.rankfold-computation table { border-collapse: collapse; font-variant-numeric: tabular-nums; }
+.rankfold-computation th, .rankfold-computation td { padding: 2px 8px; text-align: right;
+  border-bottom: 1px solid rgba(128, 128, 128, 0.35); white-space: nowrap; }
+.rankfold-computation th[scope=row], .rankfold-computation thead th:first-child,
+.rankfold-computation td.rankfold-note { text-align: left; }
+.rankfold-computation td.rankfold-note { white-space: normal; }
+.rankfold-computation .rankfold-formula { font-family: ui-monospace, monospace; }
+</style>"""
+
 
 def number(value: float) -> str:
     """A pair count or sum as written in the formulas: thousands separators, whole numbers
@@ -172,7 +182,7 @@ def computation_html(table: OrdinalTable, measures: pd.DataFrame,
     else:
         last = _change_html(step_change(before, table))
     return (
-        '<div class="rankfold-computation">'
+        f'{_STYLE}<div class="rankfold-computation">'
         f"<p>Every measure here compares the {n} units two at a time. A pair is "
         "<em>concordant</em> when one unit is higher on both variables, <em>discordant</em> "
         "when it is higher on one and lower on the other, and <em>tied</em> when the two "
