@@ -11,6 +11,7 @@ gives the same content as a frozen copy that stays visible.
 
 from __future__ import annotations
 
+import asyncio
 import re
 import uuid
 from collections.abc import Sequence
@@ -171,18 +172,35 @@ def snapshot_html(rendered: Rendered) -> str:
     return _rendered_record(rendered, heading, "rankfold-snapshot")
 
 
+def _from_widget_message() -> bool:
+    """True while the kernel handles a message from a widget (a click), not a cell."""
+    try:
+        from IPython import get_ipython
+
+        parent = get_ipython().kernel.get_parent()
+    except Exception:  # noqa: BLE001 - outside a kernel: treat as a cell
+        return False
+    return (parent or {}).get("header", {}).get("msg_type") == "comm_msg"
+
+
 class SavedRecord:
     """The explorer's static record in the notebook, replaced after every change.
 
     :meth:`display` shows the widget and the record (as two outputs of the cell);
     :meth:`follow` replaces every displayed copy of the record with the new state. Drawing the
-    record costs about 0.2 s (mostly the SVG), so nothing is drawn until the explorer has been
-    displayed.
+    record costs about 0.4 s (mostly the SVG), so nothing is drawn until the explorer has been
+    displayed, and after a click the record is redrawn once the clicks pause for
+    :attr:`delay` seconds (a change made by a cell is written at once, so the cell's saved
+    output is complete when it finishes).
     """
+
+    delay = 1.0
 
     def __init__(self) -> None:
         self.display_id = f"rankfold-record-{uuid.uuid4().hex}"
         self.shown = False
+        self._pending: Rendered | None = None
+        self._scheduled = False
 
     @staticmethod
     def _bundle(rendered: Rendered) -> dict[str, Any]:
@@ -206,6 +224,27 @@ class SavedRecord:
         display)."""
         if not self.shown:
             return
+        self._pending = rendered
+        if _from_widget_message():
+            try:
+                loop = asyncio.get_running_loop()
+            except RuntimeError:
+                loop = None
+            if loop is not None:
+                if not self._scheduled:
+                    self._scheduled = True
+                    loop.call_later(self.delay, self._flush)
+                return
+        self._flush()
+
+    def _flush(self) -> None:
         from IPython.display import update_display
 
-        update_display(self._bundle(rendered), raw=True, display_id=self.display_id)
+        self._scheduled = False
+        rendered, self._pending = self._pending, None
+        if rendered is None:
+            return
+        try:
+            update_display(self._bundle(rendered), raw=True, display_id=self.display_id)
+        except Exception:  # noqa: BLE001 - the record must never break the explorer
+            self._pending = None

@@ -8,6 +8,7 @@ not used. Without Chromium the browser tests are skipped locally and fail when `
 
 from __future__ import annotations
 
+import json
 import os
 import re
 import secrets
@@ -362,9 +363,28 @@ def open_in(server: LabServer, page, source: Path) -> NotebookPage:
     lab = server.tree == "lab/tree"
     if lab:
         page.locator(".jp-StatusBar-TextItem", has_text=KERNEL_IDLE).wait_for()
-    else:  # Notebook 7 shows the kernel's state in the toolbar's execution indicator
-        page.locator(".jp-Notebook-ExecutionIndicator[data-status='idle']").first.wait_for()
+    else:
+        _wait_for_idle_kernel(server, page)
     return NotebookPage(page, status_bar=lab)
+
+
+def _wait_for_idle_kernel(server: LabServer, page) -> None:
+    """Wait until the server reports the notebook's kernel idle (Notebook 7 has no status
+    bar). Notebook 7 at times asks which kernel to start although the notebook names one; the
+    named one is preselected, so the dialog is accepted."""
+    opener = urllib.request.build_opener(urllib.request.ProxyHandler({}))
+    accept = page.locator(".jp-Dialog .jp-mod-accept")
+    deadline = time.monotonic() + UI_TIMEOUT_MS / 1000
+    while time.monotonic() < deadline:
+        if accept.count() and accept.first.is_visible():
+            accept.first.click()
+        with opener.open(f"{server.url}/api/sessions?token={server.token}", timeout=5) as answer:
+            sessions = json.loads(answer.read())
+        if any(s.get("kernel", {}).get("execution_state") == "idle" for s in sessions):
+            return
+        time.sleep(0.25)  # the polling interval of this readiness check
+    raise RuntimeError(f"No idle kernel within {UI_TIMEOUT_MS / 1000:.0f} s:\n"
+                       f"{server.log_text()}")
 
 
 @pytest.fixture
