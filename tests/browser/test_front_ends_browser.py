@@ -12,10 +12,10 @@ from __future__ import annotations
 import re
 from pathlib import Path
 
-import numpy as np
 import pytest
 
 import rankfold
+from tables_for_tests import brute_force_pairs
 
 pytestmark = pytest.mark.browser
 
@@ -26,19 +26,6 @@ pytestmark = pytest.mark.browser
 NOTEBOOK7_SHORTCUTS_RACE = "uncaught: Cannot read properties of undefined (reading 'schema')"
 
 QUICKSTART = Path(__file__).parents[2] / "example_notebooks" / "quickstart.ipynb"
-
-
-def enumerated_pairs(counts: np.ndarray) -> tuple[int, int]:
-    """Concordant and discordant pairs, every pair of cells visited (Goodman & Kruskal 1954)."""
-    c = d = 0
-    rows, cols = counts.shape
-    for i in range(rows):
-        for j in range(cols):
-            for k in range(i + 1, rows):
-                for m in range(cols):
-                    c += int(counts[i, j] * counts[k, m]) * (m > j)
-                    d += int(counts[i, j] * counts[k, m]) * (m < j)
-    return c, d
 
 
 @pytest.mark.parametrize("front_end", ["lab", "notebook7"])
@@ -70,7 +57,7 @@ def check_quickstart(notebook, front_end: str, tmp_path: Path) -> None:
              .exclude("cols", ["no answer"])
              .merge("rows", [["10–20 km", "over 20 km"]])
              .merge("cols", [["very poor", "poor"]]))
-    c, d = enumerated_pairs(table.counts.to_numpy())
+    c, d = brute_force_pairs(table.counts.to_numpy())
     gamma = f"{(c - d) / (c + d):.4f}"
     assert gamma == f"{table.measures().loc['gamma', 'estimate']:.4f}"
 
