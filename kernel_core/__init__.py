@@ -12,7 +12,16 @@ from typing import Any
 
 from . import demo
 from .cell_figures import cell_figures
-from .collapsing import apply_coding, suggest_collapsing, sweep, sweep_chunks
+from .collapsing import (
+    apply_coding,
+    count_codings,
+    range_sentence,
+    rule_met,
+    suggest_collapsing,
+    sweep,
+    sweep_chunks,
+    sweep_ranges,
+)
 from .concordance import cell_concordance, pair_counts
 from .counting import table, table_from_counts
 from .diagnostics import Diagnostics
@@ -20,6 +29,7 @@ from .independence import PermutationResult, independence_label
 from .measure_comparison import compare_measures
 from .measure_table import measure_label
 from .ordinal_table import OrdinalTable
+from .overview import overview
 from .pair_regions import PairRegions, pair_regions
 from .steps import ExcludeStep, MergeStep, OrderStep, apply_steps
 
@@ -38,16 +48,21 @@ __all__ = [
     "cell_concordance",
     "cell_figures",
     "compare_measures",
+    "count_codings",
     "demo",
     "explore",
     "independence_label",
     "measure_label",
+    "overview",
     "pair_counts",
     "pair_regions",
+    "range_sentence",
     "report",
+    "rule_met",
     "suggest_collapsing",
     "sweep",
     "sweep_chunks",
+    "sweep_ranges",
     "table",
     "table_from_counts",
 ]
@@ -64,4 +79,8 @@ def __getattr__(name: str) -> Any:
         from .widgets.report import report
 
         return report
+    if name == "charts":  # Altair charts of tables and overviews, also imported on first use
+        from .widgets import charts
+
+        return charts
     raise AttributeError(f"module 'rankfold' has no attribute {name!r}")

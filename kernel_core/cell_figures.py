@@ -33,7 +33,7 @@ def cell_figures(table: OrdinalTable) -> pd.DataFrame:
 
     Notes
     -----
-    Row and column percentages are the conditional distributions of Agresti (2010, sec. 1.2);
+    Row and column percentages are the conditional distributions of Agresti (2010, ch. 1);
     the other figures are documented in :class:`rankfold.diagnostics.Diagnostics`.
 
     References

@@ -21,15 +21,18 @@ import numpy as np
 import pandas as pd
 
 from .control_variable import partial_gamma_arrays
+from .cumulative_logit import cumulative_logit_arrays
 from .diagnostics import sparse_cell_figures
 from .measure_table import measure_label
-from .ordinal_measures import ORDINAL_MEASURES, Sampling, ordinal_measure_arrays
+from .ordinal_measures import ORDINAL_MEASURES, Sampling, delta_variance, ordinal_measure_arrays
 from .ordinal_table import OrdinalTable
+from .polychoric import polychoric_arrays
 from .steps import MergeStep, merged_label
 
 __all__ = [
     "DEFAULT_MAX_SCHEMES",
     "DEFAULT_SWEEP_MEASURES",
+    "LATENT_MEASURES",
     "RULES",
     "CollapsingSuggestion",
     "apply_coding",
@@ -55,6 +58,9 @@ DEFAULT_MAX_SCHEMES = 300_000
 DEFAULT_CHUNK_SIZE = 10_000
 AXES_CHOICES = ("both", "rows", "cols")
 PARTIAL = "partial_gamma"
+#: Measures of an assumed continuous scale underneath, which merging neighbouring categories
+#: should leave unchanged under their models (opt in: they cost iterations per coding).
+LATENT_MEASURES = ("polychoric", "cumulative_logit")
 
 #: Sparse-cell rules :func:`suggest_collapsing` can apply, with their default thresholds.
 RULES = {
@@ -74,6 +80,11 @@ class _AxisCodings:
     size: int
     cuts: np.ndarray  # (M,) bitmasks
     groups: np.ndarray  # (M,) number of categories of each coding
+
+    def group_of(self, selection: np.ndarray) -> np.ndarray:
+        """For codings ``selection``, the merged category each original category falls in."""
+        bits = (self.cuts[selection][:, None] >> np.arange(self.size - 1)) & 1
+        return np.hstack([np.zeros((len(bits), 1), dtype=np.int64), np.cumsum(bits, axis=1)])
 
     def bounds(self, selection: np.ndarray) -> np.ndarray:
         """Category boundaries ``0 = b_0 < ... < b_g = size`` of codings with equal ``g``."""
@@ -387,7 +398,9 @@ def _check_measures(table: OrdinalTable, measures: Sequence[str]) -> tuple[str, 
     if isinstance(measures, str):
         measures = (measures,)
     measures = tuple(measures)
-    known = (*ORDINAL_MEASURES, PARTIAL) if table.control_name is not None else ORDINAL_MEASURES
+    known = (*ORDINAL_MEASURES, *LATENT_MEASURES)
+    if table.control_name is not None:
+        known = (*known, PARTIAL)
     unknown = [m for m in measures if m not in known]
     if unknown or not measures or len(set(measures)) != len(measures):
         controlled = (
@@ -401,12 +414,45 @@ def _check_measures(table: OrdinalTable, measures: Sequence[str]) -> tuple[str, 
     return measures
 
 
+class _ChangeBase:
+    """The swept table's own measures and gradients, for each coding's paired change."""
+
+    def __init__(self, table: OrdinalTable, measures: tuple[str, ...]) -> None:
+        self.counts = table.cells.sum(axis=0).astype(float)
+        self.sampling = Sampling()
+        if table.squared_weights is not None:
+            self.sampling = Sampling(table.squared_weights.sum(axis=0),
+                                     float(np.asarray(table.records).sum()))
+        found = ordinal_measure_arrays(self.counts, self.sampling, gradients=True)
+        if "polychoric" in measures:
+            found["polychoric"] = polychoric_arrays(self.counts, self.sampling)
+        self.found = found
+
+    def change(self, key: str, estimate: np.ndarray, gradient: np.ndarray | None,
+               row_groups: np.ndarray, col_groups: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Each coding's change from the swept table and its paired delta-method error.
+
+        The coding's gradient is carried back to the swept table's cells it sums
+        (``A^T g``), less the swept table's own gradient; the variance is the one rule on
+        the swept table's counts (see :func:`rankfold.coding_change.coding_change`).
+        """
+        base = self.found.get(key)
+        if base is None or gradient is None:  # no gradient for this measure (yet): NaN
+            return np.full(estimate.shape, np.nan), np.full(estimate.shape, np.nan)
+        change = estimate - float(base["estimate"])
+        carried = np.take_along_axis(gradient, row_groups[:, :, None], axis=1)
+        carried = np.take_along_axis(carried, col_groups[:, None, :], axis=2)
+        se = np.sqrt(delta_variance(self.counts, carried - base["gradient"], self.sampling))
+        return change, np.where(np.isnan(change), np.nan, se)
+
+
 class _Columns:
     """Builds the sweep's columns for batches of one table."""
 
     def __init__(self, table: OrdinalTable, rows: _AxisCodings, cols: _AxisCodings,
-                 measures: tuple[str, ...]) -> None:
+                 measures: tuple[str, ...], changes: bool = False) -> None:
         self.rows, self.cols, self.measures = rows, cols, measures
+        self.base = _ChangeBase(table, measures) if changes else None
         self.text = {
             axis: (
                 pd.Index([" | ".join(merged_label(g) for g in _split(labels, int(c)))
@@ -434,9 +480,13 @@ class _Columns:
             pooled = Sampling(batch.squared.sum(axis=1), self.level_records.sum())
             controlled = Sampling(batch.squared, self.level_records)
         counts = batch.counts
-        found = ordinal_measure_arrays(counts, pooled)
+        found = ordinal_measure_arrays(counts, pooled, gradients=self.base is not None)
         if PARTIAL in self.measures:
             found[PARTIAL] = partial_gamma_arrays(batch.cells, controlled)
+        if "polychoric" in self.measures:
+            found["polychoric"] = polychoric_arrays(counts, pooled)
+        if "cumulative_logit" in self.measures:
+            found["cumulative_logit"] = cumulative_logit_arrays(counts, sampling=pooled)
         # As in measures(): with one non-empty category on either variable, every measure is
         # undefined (P - Q is 0 by construction, not by the data).
         busy = np.minimum((counts.sum(axis=-1) > 0).sum(axis=-1),
@@ -445,6 +495,10 @@ class _Columns:
             estimate = np.where(busy, found[key]["estimate"], np.nan)
             out[key] = estimate
             out[f"{key}_std_error"] = np.where(np.isnan(estimate), np.nan, found[key]["std_error"])
+            if self.base is not None:
+                out[f"{key}_change"], out[f"{key}_change_se"] = self.base.change(
+                    key, estimate, found[key].get("gradient"),
+                    self.rows.group_of(batch.row_index), self.cols.group_of(batch.col_index))
         figures = _sparse_columns(batch.observed)
         for key in ("share_expected_below_5", "min_expected", "zero_cells", "smallest_category"):
             out[key] = figures[key]
@@ -476,12 +530,13 @@ def sweep_chunks(
     max_schemes: int | None = DEFAULT_MAX_SCHEMES,
     chunk_size: int = DEFAULT_CHUNK_SIZE,
     progress: Progress | None = None,
+    changes: bool = False,
 ) -> Iterator[pd.DataFrame]:
     """The collapsing sweep of :func:`sweep`, streamed as DataFrame chunks.
 
     Parameters
     ----------
-    table, axes, min_categories, measures, max_schemes, progress
+    table, axes, min_categories, measures, max_schemes, progress, changes
         As in :func:`sweep`.
     chunk_size : int
         Most codings per chunk; memory use is bounded by it, whatever the number of codings.
@@ -499,7 +554,7 @@ def sweep_chunks(
         work, so a chunk is never silently the last one).
     """
     rows, cols = _plan(table, axes, min_categories, max_schemes, chunk_size)
-    columns = _Columns(table, rows, cols, _check_measures(table, measures))
+    columns = _Columns(table, rows, cols, _check_measures(table, measures), changes)
     for batch in _batches(table, rows, cols, chunk_size, progress):
         yield columns.frame(columns.arrays(batch))
 
@@ -512,6 +567,7 @@ def sweep(
     measures: Sequence[str] = DEFAULT_SWEEP_MEASURES,
     max_schemes: int | None = DEFAULT_MAX_SCHEMES,
     progress: Progress | None = None,
+    changes: bool = False,
 ) -> pd.DataFrame:
     """Every coding obtained by merging neighbouring categories, with its measures.
 
@@ -526,15 +582,29 @@ def sweep(
     min_categories : int
         Fewest categories a recoded axis may keep (at least 2).
     measures : sequence of str
-        Keys from :data:`rankfold.ordinal_measures.ORDINAL_MEASURES` and, for a controlled
-        table, ``"partial_gamma"`` (within-level pairs pooled, Davis 1967, JASA 62:189; see
-        :func:`rankfold.control_variable.partial_gamma_arrays`).
+        Keys from :data:`rankfold.ordinal_measures.ORDINAL_MEASURES`; ``"polychoric"``
+        (:func:`rankfold.polychoric.polychoric_arrays`) and ``"cumulative_logit"`` (the
+        proportional-odds slope of the column variable on the row positions,
+        :func:`rankfold.cumulative_logit.cumulative_logit_arrays`), which assume a continuous
+        scale underneath and should not move when neighbouring categories merge (the slope
+        only for merges of the column variable: merging rows changes what one step means);
+        and, for a table with a control variable, ``"partial_gamma"`` (within-level pairs
+        pooled, Davis 1967, JASA 62:189; see
+        :func:`rankfold.control_variable.partial_gamma_arrays`; its standard error takes the
+        level of each unit as random, the default of ``partial_measures()``).
     max_schemes : int or None
         Refuse (with a ValueError saying what to do instead) when there are more codings than
         this; None for no limit. The default admits a full 10 x 10 sweep (261,121 codings).
     progress : callable, optional
         ``progress(done, total)`` is called after each batch with the number of codings
         evaluated so far and in all, e.g. to drive a progress bar.
+    changes : bool
+        Also give each measure's change from the swept table (``<key>_change``, this
+        coding's estimate less the table's own) and its paired delta-method standard error
+        (``<key>_change_se``; see :func:`rankfold.coding_change.coding_change`): both come
+        from the same units, so this error is far smaller than either estimate's. Pass
+        ``t.collected`` to measure changes from the table as collected. Not (yet) for
+        ``cumulative_logit`` and ``partial_gamma``, whose columns are then NaN.
 
     Returns
     -------
@@ -591,7 +661,7 @@ def sweep(
     105
     """
     rows, cols = _plan(table, axes, min_categories, max_schemes, DEFAULT_CHUNK_SIZE)
-    columns = _Columns(table, rows, cols, _check_measures(table, measures))
+    columns = _Columns(table, rows, cols, _check_measures(table, measures), changes)
     parts = [columns.arrays(b) for b in _batches(table, rows, cols, DEFAULT_CHUNK_SIZE, progress)]
     return columns.frame({key: np.concatenate([p[key] for p in parts]) for key in parts[0]})
 
@@ -622,7 +692,7 @@ def sweep_ranges(
         estimates (quartiles by linear interpolation, numpy's default; NaN when none is
         defined).
     """
-    known = [m for m in (*ORDINAL_MEASURES, PARTIAL) if m in frame.columns]
+    known = [m for m in (*ORDINAL_MEASURES, *LATENT_MEASURES, PARTIAL) if m in frame.columns]
     measures = known if measures is None else list(measures)
     unknown = [m for m in measures if m not in known]
     if unknown or not measures:
@@ -785,6 +855,16 @@ class CollapsingSuggestion:
     meeting: int
     codings: int
     note: str
+
+    def __repr__(self) -> str:
+        # a short summary; the recoded table is in .table
+        if self.table is None:
+            return f"<CollapsingSuggestion: none ({self.rule}); {self.note}>"
+        shown = " ; ".join(f"{name}: " + " | ".join(merged_label(g) for g in groups)
+                           for name, groups in ((self.table.row_name, self.row_groups),
+                                                (self.table.col_name, self.col_groups)))
+        return (f"<CollapsingSuggestion ({self.rule}), {self.merges} merge(s), "
+                f"{self.meeting:,} of {self.codings:,} codings meet the rule: {shown}>")
 
 
 def suggest_collapsing(

@@ -33,7 +33,7 @@ def cell_concordance(counts: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     -----
     With these, ``P = sum n_ij C_ij`` and ``Q = sum n_ij D_ij`` count ordered pairs of units
     (each unordered concordant pair twice), the convention of Goodman & Kruskal (1954) as used
-    by Agresti (2010, sec. 7.1). Both come from two 2-D cumulative sums, one from the top-left
+    by Agresti (2010, ch. 7). Both come from two 2-D cumulative sums, one from the top-left
     corner and one from the bottom-right, so the cost is O(I*J) whatever the number of units:
     the rows above a cell give the units above-left (read off directly) and above-right (the
     rest of those rows), and likewise below. A region with no units gives exactly 0, also for
@@ -84,11 +84,11 @@ def pair_counts(counts: np.ndarray) -> dict[str, Any]:
     With ``P`` and ``Q`` as in :func:`cell_concordance`, the unordered counts are ``P / 2``
     and ``Q / 2``; ``tied_both = sum n_ij (n_ij - 1) / 2``,
     ``tied_row_only = sum_i n_i+ (n_i+ - 1) / 2 - tied_both`` and likewise for columns
-    (Agresti 2010, sec. 7.1.1).
+    (Agresti 2010, ch. 7).
 
     References
     ----------
-    Agresti, A. (2010). Analysis of Ordinal Categorical Data, 2nd ed., Wiley, sec. 7.1.
+    Agresti, A. (2010). Analysis of Ordinal Categorical Data, 2nd ed., Wiley, ch. 7.
     """
     n = np.asarray(counts)
     if n.ndim != 2:

@@ -3,10 +3,11 @@ and the CMH test.
 
 A table with a control variable holds one I x J table per category (level) of a third
 variable, ``cells`` of shape (K, I, J). Controlling for it means comparing units only with
-units of the same level: pairs are formed within levels, and levels are treated as independent
-samples (independent
-multinomials for counts; with sampling weights, each level's records as a with-replacement
-sample of their own).
+units of the same level: pairs are formed within levels. For the standard error of partial
+gamma, the level a unit falls in is random by default (one multinomial over the K x I x J
+table; with sampling weights, all records one with-replacement sample); with
+``control_totals="fixed"`` the level sizes are fixed by design (independent multinomials;
+each level's records a sample of their own).
 """
 
 from __future__ import annotations
@@ -17,12 +18,15 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 import pandas as pd
-from scipy import stats
+from scipy import special
 
 from .concordance import cell_concordance
 from .independence import _resolve_scores
 from .measure_table import inference_frame, interval_quantile, sampling_note
 from .ordinal_measures import Sampling, delta_variance, ordinal_measure_arrays
+
+#: How the level sizes arose, for partial gamma's standard error (see partial_gamma_arrays).
+CONTROL_TOTALS = ("random", "fixed")
 
 if TYPE_CHECKING:
     from .ordinal_table import OrdinalTable
@@ -30,6 +34,7 @@ if TYPE_CHECKING:
 __all__ = [
     "cmh_correlation",
     "gamma_homogeneity",
+    "CONTROL_TOTALS",
     "control_counts",
     "control_measures",
     "control_tests",
@@ -119,6 +124,7 @@ def single_level(table: OrdinalTable, label: Hashable) -> OrdinalTable:
         table, cells=pick(table.cells), squared_weights=pick(table.squared_weights),
         records=pick(table.records), control_name=None, control_labels=(None,),
         origin=Origin("counts"), initial_steps=len(table.steps),
+        collected_from=None, row_map=None, col_map=None,
     )
 
 
@@ -147,8 +153,18 @@ def control_measures(table: OrdinalTable, confidence: float = 0.95) -> pd.DataFr
     )
 
 
+def _check_control_totals(control_totals: object) -> str:
+    if control_totals not in CONTROL_TOTALS:
+        raise ValueError(
+            f"control_totals must be 'random' (the level of a unit is random, as in an "
+            f"ordinary survey) or 'fixed' (level sizes fixed by the design, as in a stratified "
+            f"sample); got {control_totals!r}."
+        )
+    return str(control_totals)
+
+
 def partial_gamma_arrays(
-    cells: np.ndarray, sampling: Sampling | None = None
+    cells: np.ndarray, sampling: Sampling | None = None, control_totals: str = "random"
 ) -> dict[str, np.ndarray]:
     """Partial gamma of tables with a control variable with delta-method standard errors.
 
@@ -158,26 +174,37 @@ def partial_gamma_arrays(
         Counts (or sums of weights) of K levels; leading axes are a batch.
     sampling : Sampling, optional
         Survey-weight information per level: ``squared`` of shape (..., K, I, J) and
-        ``records`` of shape (..., K). Independent multinomials within levels by default.
+        ``records`` of shape (..., K). Multinomial counts by default.
+    control_totals : {'random', 'fixed'}
+        ``"random"`` (default): the level a unit falls in is random, as in an ordinary
+        survey: one multinomial over the whole K x I x J table (with sampling weights, all
+        records one with-replacement sample). ``"fixed"``: the level sizes are fixed by the
+        design (a stratified sample): independent multinomials, one per level (with sampling
+        weights, each level's records a sample of their own).
 
     Returns
     -------
     dict
-        ``estimate``, ``std_error`` and ``std_error_null``, each of the batch shape; NaN where
-        no pair within a level is untied on both variables.
+        ``estimate``, ``std_error``, ``std_error_null`` and ``on_bound`` (no discordant or no
+        concordant pair within any level: partial gamma is +/-1, its error exactly 0), each
+        of the batch shape; NaN where no pair within a level is untied on both variables.
+        Also ``gradient`` (..., K, I, J), the derivative in each cell the errors use.
 
     Notes
     -----
     With ``P = sum_k P_k`` and ``Q = sum_k Q_k`` the concordant and discordant pairs formed
     within levels, partial gamma is ``(P - Q) / (P + Q)`` (Davis 1967). Its derivative with
     respect to a count of level k is ``g_ijk = 4 (Q C_ijk - P D_ijk) / (P + Q)^2``, with
-    ``C_ijk``, ``D_ijk`` the within-level concordance of :func:`cell_concordance`. Levels are
-    independent samples, so the variance is the sum over levels of the one-table rule of
-    :func:`rankfold.ordinal_measures.delta_variance`,
+    ``C_ijk``, ``D_ijk`` the within-level concordance of :func:`cell_concordance`. With
+    random level sizes the one-table rule of :func:`rankfold.ordinal_measures.delta_variance`
+    runs over all K x I x J cells,
+    ``Var = sum_ijk n_ijk g_ijk^2 - (sum_ijk n_ijk g_ijk)^2 / n``; with fixed sizes the levels
+    are independent samples and the rule is applied within each and summed,
     ``Var = sum_k [sum_ij n_ijk g_ijk^2 - (sum_ij n_ijk g_ijk)^2 / n_k]`` (the delta method
-    for independent samples, Bishop, Fienberg & Holland 1975, ch. 14). The null standard
-    error applies the same rule to the numerator's gradient ``2 (C_ijk - D_ijk) / (P + Q)``,
-    as Brown & Benedetti (1977) do for one table.
+    for multinomial and product-multinomial sampling, Bishop, Fienberg & Holland 1975,
+    ch. 14). The second form is never larger. The null standard error applies the same rule
+    to the numerator's gradient ``2 (C_ijk - D_ijk) / (P + Q)``, as Brown & Benedetti
+    (1977) do for one table.
 
     References
     ----------
@@ -189,6 +216,7 @@ def partial_gamma_arrays(
     """
     n = np.asarray(cells, dtype=float)
     sampling = sampling or Sampling()
+    fixed = _check_control_totals(control_totals) == "fixed"
     conc, disc = cell_concordance(n)
     P = (n * conc).sum(axis=(-3, -2, -1))
     Q = (n * disc).sum(axis=(-3, -2, -1))
@@ -199,21 +227,69 @@ def partial_gamma_arrays(
         scale = np.where(untied > 0, untied, np.nan)[..., None, None, None]
         grad = 4 * (Q[..., None, None, None] * conc - P[..., None, None, None] * disc) / scale**2
         grad_null = 2 * (conc - disc) / scale
+    # On the bound from the pair counts of the 0/1 table of non-empty cells (exact integers).
+    filled = (n > 0).astype(float)
+    f_conc, f_disc = cell_concordance(filled)
+    on_bound = ~np.isnan(estimate) & (
+        ((filled * f_conc).sum(axis=(-3, -2, -1)) == 0)
+        | ((filled * f_disc).sum(axis=(-3, -2, -1)) == 0)
+    )
 
-    def summed(gradient: np.ndarray) -> np.ndarray:
-        per_level = delta_variance(n, gradient, sampling)
-        return np.sqrt(np.where(occupied, per_level, 0.0).sum(axis=-1))
+    def whole(x: np.ndarray) -> np.ndarray:  # (..., K, I, J) -> (..., K * I, J)
+        return x.reshape(*x.shape[:-3], x.shape[-3] * x.shape[-2], x.shape[-1])
 
-    se, se_null = summed(grad), summed(grad_null)
+    if fixed:
+        def spread(gradient: np.ndarray) -> np.ndarray:
+            per_level = delta_variance(n, gradient, sampling)
+            return np.sqrt(np.where(occupied, per_level, 0.0).sum(axis=-1))
+    else:
+        overall = sampling
+        if sampling.squared is not None:
+            overall = Sampling(whole(np.asarray(sampling.squared, dtype=float)),
+                               np.asarray(sampling.records, dtype=float).sum(axis=-1))
+
+        def spread(gradient: np.ndarray) -> np.ndarray:
+            # an empty level's gradient may be NaN (0/0 nowhere needed): it carries no weight
+            used = np.where(occupied[..., None, None], gradient, 0.0)
+            return np.sqrt(delta_variance(whole(n), whole(used), overall))
+
+    se, se_null = spread(grad), spread(grad_null)
     undefined = np.isnan(estimate)
     return {
-        "estimate": estimate,
-        "std_error": np.where(undefined, np.nan, se),
+        "estimate": np.where(on_bound, np.sign(estimate), estimate),
+        "std_error": np.where(undefined, np.nan, np.where(on_bound, 0.0, se)),
         "std_error_null": np.where(undefined, np.nan, se_null),
+        "on_bound": on_bound,
+        "gradient": grad,
     }
 
 
-def partial_measures(table: OrdinalTable, confidence: float = 0.95) -> pd.DataFrame:
+def partial_design_note(control_totals: str, weighted: tuple[float, float] | None) -> str:
+    """The note saying which sampling a partial gamma's standard error assumes.
+
+    Parameters
+    ----------
+    control_totals : {'random', 'fixed'}
+        As in :func:`partial_gamma_arrays`.
+    weighted : (float, float) or None
+        Total and total squared sampling weight, or None without sampling weights.
+
+    Returns
+    -------
+    str
+        E.g. ``"the level of each unit random"``; with sampling weights the Kish note of
+        :func:`rankfold.measure_table.sampling_note` comes first.
+    """
+    fixed = control_totals == "fixed"
+    if weighted is None:
+        return "level sizes fixed by design" if fixed else "the level of each unit random"
+    return sampling_note(*weighted) + ("; each level's records a sample of their own" if fixed
+                                      else "; all records one sample, the level of each random")
+
+
+def partial_measures(
+    table: OrdinalTable, confidence: float = 0.95, control_totals: str = "random"
+) -> pd.DataFrame:
     """Association within levels of the control variable, pooled: partial gamma.
 
     Parameters
@@ -222,6 +298,10 @@ def partial_measures(table: OrdinalTable, confidence: float = 0.95) -> pd.DataFr
         A table with a control variable.
     confidence : float
         Confidence level of the interval, strictly between 0 and 1.
+    control_totals : {'random', 'fixed'}
+        How the level sizes arose: ``"random"`` (default; the level of a unit is random, as
+        in an ordinary survey) or ``"fixed"`` (fixed by the design, as in a stratified
+        sample). See :func:`partial_gamma_arrays`.
 
     Returns
     -------
@@ -244,30 +324,40 @@ def partial_measures(table: OrdinalTable, confidence: float = 0.95) -> pd.DataFr
     """
     _require_control(table, "partial_measures")
     crit = interval_quantile(confidence)
-    arrays = partial_gamma_arrays(table.cells, _level_sampling(table))
+    arrays = partial_gamma_arrays(table.cells, _level_sampling(table),
+                                  _check_control_totals(control_totals))
     est, se, se0 = (float(arrays[f]) for f in ("estimate", "std_error", "std_error_null"))
     note = "no pair of units within a level is untied on both variables" if np.isnan(est) else ""
-    if table.squared_weights is not None:
-        extra = sampling_note(float(table.cells.sum()), float(table.squared_weights.sum()))
-        extra += "; each level's records a sample of their own"
-        note = f"{note}; {extra}" if note else extra
-    return inference_frame(["partial_gamma"], [est], [se], [se0], [note], crit=crit)
+    weighted = None if table.squared_weights is None else (
+        float(table.cells.sum()), float(table.squared_weights.sum()))
+    design = partial_design_note(control_totals, weighted)
+    note = f"{note}; {design}" if note else design
+    return inference_frame(["partial_gamma"], [est], [se], [se0], [note], crit=crit,
+                           on_bound=[bool(arrays["on_bound"])])
 
 
-def gamma_homogeneity(estimates: np.ndarray, std_errors: np.ndarray) -> dict[str, float | str]:
+def gamma_homogeneity(
+    estimates: np.ndarray, std_errors: np.ndarray, on_bound: np.ndarray | None = None
+) -> dict[str, float | str]:
     """Test that gamma is the same in every level.
 
     Parameters
     ----------
     estimates, std_errors : ndarray, shape (K,)
         Gamma of each level and its delta-method standard error.
+    on_bound : ndarray of bool, shape (K,), optional
+        Levels whose gamma is +/-1 (no discordant or no concordant pair, as
+        :func:`rankfold.ordinal_measures.bound_flags` decides from the pair counts). By
+        default a level counts as on its bound when its gamma is exactly +/-1, which is what
+        ``(P - Q)/(P + Q)`` gives with ``Q = 0`` or ``P = 0``.
 
     Returns
     -------
     dict
         ``statistic``, ``df``, ``p_value``, ``weighted_mean`` and ``note``. Levels whose gamma
-        is undefined, or whose standard error is 0 (gamma = +/-1), cannot enter the inverse-
-        variance weights; they are left out and the note names how many.
+        is undefined or on its bound (gamma = +/-1, no standard error to weigh it by) cannot
+        enter the inverse-variance weights; they are left out, whatever floating residue
+        their standard error shows, and the note names how many.
 
     Notes
     -----
@@ -285,7 +375,8 @@ def gamma_homogeneity(estimates: np.ndarray, std_errors: np.ndarray) -> dict[str
     """
     g = np.asarray(estimates, dtype=float)
     se = np.asarray(std_errors, dtype=float)
-    usable = np.isfinite(g) & np.isfinite(se) & (se > 0)
+    bound = np.abs(g) == 1 if on_bound is None else np.asarray(on_bound, dtype=bool)
+    usable = np.isfinite(g) & np.isfinite(se) & (se > 0) & ~bound
     left_out = int((~usable).sum())
     notes = []
     if left_out:
@@ -301,7 +392,7 @@ def gamma_homogeneity(estimates: np.ndarray, std_errors: np.ndarray) -> dict[str
     statistic = float((w * (g[usable] - mean) ** 2).sum())
     df = int(usable.sum()) - 1
     notes.insert(0, f"inverse-variance weighted mean gamma = {mean:.4f} over {df + 1} levels")
-    return {"statistic": statistic, "df": df, "p_value": float(stats.chi2.sf(statistic, df)),
+    return {"statistic": statistic, "df": df, "p_value": float(special.chdtrc(df, statistic)),
             "weighted_mean": mean, "note": "; ".join(notes)}
 
 
@@ -360,7 +451,7 @@ def cmh_correlation(
         return {"statistic": np.nan, "df": np.nan, "p_value": np.nan,
                 "note": "the scores do not vary within any level"}
     statistic = float(difference**2 / variance)
-    return {"statistic": statistic, "df": 1, "p_value": float(stats.chi2.sf(statistic, 1)),
+    return {"statistic": statistic, "df": 1, "p_value": float(special.chdtrc(1, statistic)),
             "note": "association within levels, pooled (scores as for trend_m2)"}
 
 
@@ -393,7 +484,7 @@ def control_tests(
                "note": "not for sampling weights: the weighted totals are not counts; use the "
                        "z test of partial_measures()"}
     gamma = ordinal_measure_arrays(table.cells, sampling)["gamma"]
-    homogeneity = gamma_homogeneity(gamma["estimate"], gamma["std_error"])
+    homogeneity = gamma_homogeneity(gamma["estimate"], gamma["std_error"], gamma["on_bound"])
     frame = pd.DataFrame.from_dict(
         {key: {c: value[c] for c in ("statistic", "df", "p_value", "note")}
          for key, value in (("cmh_correlation", cmh), ("gamma_homogeneity", homogeneity))},

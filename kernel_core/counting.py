@@ -237,6 +237,18 @@ def check_total(total: float, what: str) -> None:
         )
 
 
+#: Whole-number cell totals are kept as exact int64 while the table's total stays below this;
+#: larger ones stay double-precision sums (16 significant digits) rather than wrap around.
+EXACT_TOTAL_LIMIT = 2**62
+
+
+def whole_counts(cells: np.ndarray) -> np.ndarray:
+    """Whole-number totals as int64 when every sum over them fits, else unchanged floats."""
+    if float(np.sum(cells, dtype=float)) < EXACT_TOTAL_LIMIT:
+        return np.rint(cells).astype(np.int64)
+    return cells
+
+
 def check_weights(weight: str, bad_nan: int, bad_inf: int, bad_neg: int) -> None:
     """Raise if a weight column had missing or non-numeric, infinite or negative values."""
     if bad_nan or bad_inf or bad_neg:
@@ -431,7 +443,7 @@ def table(
         cells = _bincount(cells_flat, size, weights=w)
         check_total(float(cells.sum()), f"weights in {weight!r}")
         if weight_kind == "frequency" and whole:
-            cells = np.rint(cells).astype(np.int64)
+            cells = whole_counts(cells)
         if weight_kind == "sampling":
             w2 = w * w if tally is None else _kept(tally.weight_square_sum, keep)
             squared = _bincount(cells_flat, size, weights=w2).reshape(n_k, n_i, n_j)
@@ -542,7 +554,7 @@ def table_from_counts(
         bad = np.argwhere(array < 0)[0].tolist()
         raise ValueError(f"counts must be non-negative; cell {bad} is {array[tuple(bad)]}.")
     check_total(float(array.sum()), "counts")
-    if np.all(np.mod(array, 1) == 0) and array.max(initial=0) < 2**62:
+    if np.all(np.mod(array, 1) == 0) and array.sum() < EXACT_TOTAL_LIMIT:
         given = np.asarray(counts)  # integers keep every digit (a float holds 53 bits)
         array = (given if np.issubdtype(given.dtype, np.integer) else array).astype(np.int64)
     n_i, n_j = array.shape

@@ -157,7 +157,7 @@ def _state(n: np.ndarray, x: np.ndarray, design: _Design, theta: np.ndarray) -> 
     ``g_m = f_m (X_m - X_(m+1))``, ``H_mm = f_m (1 - 2 F_m)(X_m - X_(m+1)) - f_m^2 (X_m/pi_m +
     X_(m+1)/pi_(m+1))`` and ``H_m,m+1 = f_m f_(m+1) X_(m+1)/pi_(m+1)``; the chain rule through
     the linear design gives those in ``theta`` (McCullagh 1980, sec. 6; Agresti 2010,
-    sec. 3.4).
+    ch. 3).
     """
     A = _rows(design, x)
     eta = (np.einsum("bkjp,bp->bkj", design.alpha, theta)[:, :, None]
@@ -241,7 +241,15 @@ def _newton(n: np.ndarray, x: np.ndarray, design: _Design,
 def _inverse(hessian: np.ndarray, used: np.ndarray) -> np.ndarray:
     """``-H^-1`` (the inverse observed information), NaN for unused slots."""
     with np.errstate(invalid="ignore"):
-        cov = -np.linalg.inv(hessian)
+        try:
+            cov = -np.linalg.inv(hessian)
+        except np.linalg.LinAlgError:  # a singular fit (no information): NaN for that table
+            cov = np.full(np.shape(hessian), np.nan)
+            for b, one in enumerate(hessian):
+                try:
+                    cov[b] = -np.linalg.inv(one)
+                except np.linalg.LinAlgError:
+                    pass
     return np.where(used[:, :, None] & used[:, None, :], cov, np.nan)
 
 
@@ -489,7 +497,7 @@ def cumulative_logit(
 
     Notes
     -----
-    *Model* (McCullagh 1980, eq. 2.4; Agresti 2010, sec. 3.3):
+    *Model* (McCullagh 1980, eq. 2.4; Agresti 2010, ch. 3):
     ``logit P(Y <= j | x_i, k) = alpha_kj - beta x_i``, so ``beta > 0`` means higher scores go
     with higher response categories; ``beta`` is the log of the cumulative odds ratio for one
     step of ``x``, the same at every cut-point. With a control variable each level has its own
@@ -667,7 +675,7 @@ def cumulative_logit_frame(
     -----
     The slope's ``z = beta / std_error`` and its two-sided normal p-value are the Wald test
     of ``beta = 0`` (so ``std_error_null`` repeats ``std_error``); intervals are Wald
-    intervals (Agresti 2010, sec. 3.4). Cut-points get intervals but no test (``alpha = 0``
+    intervals (Agresti 2010, ch. 3). Cut-points get intervals but no test (``alpha = 0``
     has no meaning). Model, estimation and tests: :func:`cumulative_logit`.
     """
     crit = interval_quantile(confidence)

@@ -1,5 +1,5 @@
 """Tests of independence for one table: Pearson X², likelihood-ratio G², linear trend M²
-(Agresti, Categorical Data Analysis, 3rd ed., 2013, sec. 3.2 and 3.4), and a permutation test."""
+(Agresti, Categorical Data Analysis, 3rd ed., 2013, ch. 3), and a permutation test."""
 
 from __future__ import annotations
 
@@ -8,24 +8,26 @@ from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
-from scipy import special, stats
+from scipy import special
 
 from .ordinal_measures import Sampling
 
 __all__ = [
-    "tests_frame", "PermutationResult", "permutation_test", "midrank_scores", "independence_label",
+    "PERMUTATION_MAX_TOTAL", "tests_frame", "PermutationResult", "permutation_test",
+    "midrank_scores", "independence_label",
 ]
 
 TEST_KEYS = ("pearson_x2", "likelihood_ratio_g2", "trend_m2")
 
 #: Readable names of the tests, in the notation of Agresti, Categorical Data Analysis (3rd ed.,
-#: 2013, sec. 3.2 and 3.4); M^2 is Mantel's (1963) test of linear trend.
+#: 2013, ch. 3); M^2 is Mantel's (1963) test of linear trend.
 TEST_LABELS = {
     "pearson_x2": "Pearson X²",
     "likelihood_ratio_g2": "likelihood-ratio G²",
     "trend_m2": "linear trend M² = (n − 1) r²",
     "cmh_correlation": "Cochran–Mantel–Haenszel correlation",
     "gamma_homogeneity": "same gamma in every level",
+    "latent_normal_fit": "fit of the latent normal (G²)",
 }
 
 
@@ -41,7 +43,7 @@ def independence_label(key: str) -> str:
     -------
     str
         E.g. ``"Pearson X²"`` for ``"pearson_x2"`` (notation of Agresti, Categorical Data
-        Analysis, 3rd ed., 2013, sec. 3.2).
+        Analysis, 3rd ed., 2013, ch. 3).
     """
     if key not in TEST_LABELS:
         raise ValueError(f"Unknown test key {key!r}; the keys are {list(TEST_LABELS)}.")
@@ -64,8 +66,7 @@ def midrank_scores(margin: np.ndarray) -> np.ndarray:
     Notes
     -----
     ``s_k = sum_{l<k} n_l + (n_k + 1) / 2``: tied units share the average of their ranks
-    (common practice; with these scores the linear-trend r is Spearman's rho, Agresti
-    2010, sec. 2.2.3).
+    (common practice; with these scores the linear-trend r is Spearman's rho, Agresti 2010, ch. 2).
     """
     margin = np.asarray(margin, dtype=float)
     return np.cumsum(margin) - margin / 2 + 0.5
@@ -128,11 +129,11 @@ def tests_frame(
     ``m_ij = n_i+ n_+j / n``, on ``(I' - 1)(J' - 1)`` degrees of freedom where ``I'``, ``J'``
     count the non-empty rows and columns (empty categories carry no information).
     ``M^2 = (n - 1) r^2``, ``r`` the Pearson correlation of the category scores weighted by the
-    counts, on 1 degree of freedom (Mantel 1963, JASA 58:690; Agresti 2010, sec. 2.2.1).
+    counts, on 1 degree of freedom (Mantel 1963, JASA 58:690; Agresti 2010, ch. 2).
 
     References
     ----------
-    Agresti, A. (2010). Analysis of Ordinal Categorical Data, 2nd ed., Wiley, sec. 2.2.
+    Agresti, A. (2010). Analysis of Ordinal Categorical Data, 2nd ed., Wiley, ch. 2.
     """
     n = np.asarray(counts, dtype=float)
     rows_all, cols_all = n.sum(axis=1), n.sum(axis=0)
@@ -190,6 +191,12 @@ def _frame(out: dict) -> pd.DataFrame:
     return frame
 
 
+#: Largest table total the permutation test accepts: scipy.stats.random_table (scipy 1.17)
+#: draws right tables up to 2**31 - 1 units in every case we tried, and above it may return
+#: constant or wrong tables, or crash the process (totals of 3.5e9 split in two rows).
+PERMUTATION_MAX_TOTAL = 2**31 - 1
+
+
 @dataclass(frozen=True)
 class PermutationResult:
     """Monte Carlo permutation test of one measure with both margins fixed.
@@ -214,6 +221,11 @@ class PermutationResult:
     n_resamples: int
     null_distribution: np.ndarray
 
+    def __repr__(self) -> str:
+        # one line: the resampled values are there to be inspected, not printed
+        return (f"<PermutationResult {self.measure} = {self.statistic:.4f}, "
+                f"p = {self.p_value:.4g} from {self.n_resamples:,} random tables>")
+
 
 def permutation_test(
     counts: np.ndarray,
@@ -229,6 +241,8 @@ def permutation_test(
         Integer cell counts.
     measure : str
         One of the ordinal measure keys (``gamma``, ``somers_d_col_given_row``, ...).
+        On a 2 x 2 table gamma is Yule's Q and every measure orders the tables by ``n11``,
+        so this also tests the odds ratio, Q, Y and the risk difference and ratio.
     n_resamples : int
         Number of random tables.
     seed : int or numpy.random.Generator, optional
@@ -238,19 +252,27 @@ def permutation_test(
     -------
     PermutationResult
 
+    Raises
+    ------
+    ValueError
+        For weighted totals, an undefined measure, a bad ``n_resamples`` or seed, or a table
+        total above :data:`PERMUTATION_MAX_TOTAL` (2**31 - 1 units), beyond which the random
+        table generator fails; at such sizes the asymptotic tests of ``measures()`` and
+        ``tests()`` are exact enough.
+
     Notes
     -----
     Under independence with both margins fixed, the table is multivariate hypergeometric;
     tables are drawn with :func:`scipy.stats.random_table` (Patefield 1981, Appl. Stat. 30:91)
     and the p-value counts the observed table, ``(1 + #{|T*| >= |T|}) / (B + 1)`` (Davison &
-    Hinkley 1997, sec. 4.2). Differences below 1e-12 count as ties, against rounding.
+    Hinkley 1997, ch. 4). Differences below 1e-12 count as ties, against rounding.
 
     References
     ----------
     Patefield, W. M. (1981). Algorithm AS 159: an efficient method of generating random
     R x C tables with given row and column totals. Applied Statistics 30, 91-97.
     Davison, A. C. & Hinkley, D. V. (1997). Bootstrap Methods and their Application.
-    Cambridge University Press, sec. 4.2.
+    Cambridge University Press, ch. 4.
     """
     from .ordinal_measures import ORDINAL_MEASURES, ordinal_measure_arrays
 
@@ -261,6 +283,14 @@ def permutation_test(
         raise ValueError(
             "The permutation test needs whole-number counts; this table holds weighted totals. "
             "Use the delta-method intervals of measures() instead."
+        )
+    total = float(n.sum())
+    if total > PERMUTATION_MAX_TOTAL:
+        raise ValueError(
+            f"The table holds {total:,.0f} units; the permutation test draws random tables of "
+            f"at most {PERMUTATION_MAX_TOTAL:,} (2**31 - 1) units, beyond which the table "
+            "generator fails. At this size the large-sample p-values of measures() and tests() "
+            "are the right tool: use them instead."
         )
     whole = isinstance(n_resamples, (int, np.integer)) and not isinstance(n_resamples, bool)
     if not whole or n_resamples < 1:
@@ -274,6 +304,8 @@ def permutation_test(
         raise ValueError(
             f"seed must be a whole number, a numpy Generator or None; got {seed!r}."
         ) from err
+    from scipy import stats  # imported here: scipy.stats takes about a second to import
+
     dist = stats.random_table(
         n.sum(axis=1).astype(np.int64), n.sum(axis=0).astype(np.int64), seed=rng
     )

@@ -9,9 +9,11 @@ import pandas as pd
 from scipy import special
 
 from .ordinal_measures import ORDINAL_MEASURES, Sampling, delta_variance, ordinal_measure_arrays
+from .polychoric import polychoric
 from .two_by_two import two_by_two_measures
 
 __all__ = [
+    "BOUND_NOTE",
     "COLUMNS",
     "inference_frame",
     "interval_quantile",
@@ -20,6 +22,12 @@ __all__ = [
     "normal_p_value",
     "sampling_note",
 ]
+
+#: The note beside an estimate on an end of its range (gamma = +/-1, say).
+BOUND_NOTE = (
+    "estimate at its bound: the delta method gives no interval there; for a p-value that "
+    "does not rely on it, reshuffle the units with permutation_test (counts only)"
+)
 
 COLUMNS = ["estimate", "std_error", "ci_low", "ci_high", "std_error_null", "z", "p_value", "note"]
 
@@ -43,13 +51,15 @@ def measure_label(key: str, row_name: str, col_name: str) -> str:
     """
     labels = {
         "gamma": "Goodman–Kruskal gamma",
-        "partial_gamma": "partial gamma (levels held fixed)",
+        "partial_gamma": "partial gamma (within levels)",
         "somers_d_col_given_row": f"Somers' d ({col_name} | {row_name})",
         "somers_d_row_given_col": f"Somers' d ({row_name} | {col_name})",
         "somers_d_symmetric": "Somers' d (symmetric)",
         "tau_b": "Kendall's tau-b",
         "tau_c": "Stuart's tau-c",
         "spearman_rho": "Spearman's rho (midranks)",
+        "polychoric": "polychoric correlation (latent normal)",
+        "cumulative_logit": f"cumulative-logit slope ({col_name} on {row_name} steps)",
         "cramers_v": "Cramér's V (nominal)",
         "odds_ratio": "odds ratio",
         "yules_q": "Yule's Q",
@@ -119,11 +129,14 @@ def _cramers_v(counts: np.ndarray, sampling: Sampling) -> dict[str, float]:
         sq = sq[np.ix_(keep_r, keep_c)]
     var_phi2 = delta_variance(n, grad_phi2, Sampling(sq, sampling.records))
     se = np.sqrt(var_phi2) / (2 * v * (m - 1)) if v > 0 else np.nan
+    gradient = np.zeros(counts.shape)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        gradient[np.ix_(keep_r, keep_c)] = grad_phi2 / (2 * v * (m - 1))
     # Pearson's X^2 = n phi^2 on (I' - 1)(J' - 1) df (Cramer 1946, sec. 21.9); weighted
     # totals under sampling weights are not counts, so no p-value then.
     df = (n.shape[0] - 1) * (n.shape[1] - 1)
     p = special.chdtrc(df, n.sum() * max(phi2, 0.0)) if sampling.squared is None else np.nan
-    return {"estimate": v, "std_error": float(se), "p_value": float(p)}
+    return {"estimate": v, "std_error": float(se), "p_value": float(p), "gradient": gradient}
 
 
 def measures_frame(
@@ -159,11 +172,19 @@ def measures_frame(
         note = reasons[key]
         if note:
             est = se = se0 = np.nan
-        records.append((key, est, se, se0, note, (-1.0, 1.0), False))
+        records.append((key, est, se, se0, note, (-1.0, 1.0), False,
+                        bool(arrays[key]["on_bound"]) and not note))
+    if reasons["cramers_v"]:  # the table itself leaves nothing to estimate
+        records.append(("polychoric", np.nan, np.nan, np.nan, reasons["cramers_v"], (-1.0, 1.0),
+                        False, False))
+    else:
+        latent = polychoric(counts, sampling)
+        records.append(("polychoric", latent.estimate, latent.std_error, latent.std_error_null,
+                        latent.note, (-1.0, 1.0), False, False))
     v_note = reasons["cramers_v"]
     chi_square_p = np.nan  # Pearson's test, reported on the Cramér's V row
     if v_note:
-        records.append(("cramers_v", np.nan, np.nan, np.nan, v_note, (0.0, 1.0), False))
+        records.append(("cramers_v", np.nan, np.nan, np.nan, v_note, (0.0, 1.0), False, False))
     else:
         v = _cramers_v(counts, sampling)
         chi_square_p = v["p_value"]
@@ -173,10 +194,10 @@ def measures_frame(
         if not v["estimate"] > 0:
             v_note += "; V = 0 is on the boundary: no delta-method interval"
         records.append(
-            ("cramers_v", v["estimate"], v["std_error"], np.nan, v_note, (0.0, 1.0), False)
+            ("cramers_v", v["estimate"], v["std_error"], np.nan, v_note, (0.0, 1.0), False, False)
         )
     if counts.shape == (2, 2) and counts.sum() > 0:
-        for key, m in two_by_two_measures(counts).items():
+        for key, m in two_by_two_measures(counts, sampling).items():
             bounds = (-1.0, 1.0) if not m["log_scale"] else (0.0, np.inf)
             records.append(
                 (
@@ -187,16 +208,18 @@ def measures_frame(
                     m["note"],
                     bounds,
                     m["log_scale"],
+                    m["on_bound"],
                 )
             )
 
     if sampling.squared is not None:
         extra = sampling_note(counts.sum(), sampling.squared.sum())
         records = [(*r[:4], f"{r[4]}; {extra}" if r[4] else extra, *r[5:]) for r in records]
-    keys, est, se, se0, notes, bounds, log_scale = zip(*records, strict=True)
+    keys, est, se, se0, notes, bounds, log_scale, on_bound = zip(*records, strict=True)
     p_values = [chi_square_p if key == "cramers_v" else None for key in keys]
     return inference_frame(
-        keys, est, se, se0, notes, crit=crit, bounds=bounds, log_scale=log_scale, p_values=p_values
+        keys, est, se, se0, notes, crit=crit, bounds=bounds, log_scale=log_scale,
+        p_values=p_values, on_bound=on_bound,
     )
 
 
@@ -232,8 +255,8 @@ def sampling_note(total: float, squared: float) -> str:
     Returns
     -------
     str
-        The note; the effective size is ``(sum w)^2 / sum w^2`` (Kish 1965, Survey Sampling,
-        sec. 11.7), the number of unweighted records that would give about the same precision.
+        The note; the effective size is ``(sum w)^2 / sum w^2`` (Kish 1965, Survey
+        Sampling), the number of unweighted records that would give about the same precision.
     """
     size = f"{total**2 / squared:,.1f}" if squared > 0 else "undefined (no weight)"
     return (
@@ -253,6 +276,7 @@ def inference_frame(
     bounds: Sequence[tuple[float, float]] | None = None,
     log_scale: Sequence[bool] | None = None,
     p_values: Sequence[float | None] | None = None,
+    on_bound: Sequence[bool] | None = None,
 ) -> pd.DataFrame:
     """Measures table: Wald interval, z statistic, p-value and notes for each estimate.
 
@@ -275,6 +299,10 @@ def inference_frame(
     p_values : sequence of float or None, optional
         A p-value from another test where not None (Cramér's V uses Pearson's X²);
         otherwise the two-sided normal p-value of ``z = estimate / std_error_null``.
+    on_bound : sequence of bool, optional
+        Where True the estimate sits on an end of its range (decided by the caller from the
+        data, e.g. no discordant pair for gamma, never from a floating standard error): the
+        delta method gives no interval there, so the interval is NaN and the note says so.
 
     Returns
     -------
@@ -283,7 +311,7 @@ def inference_frame(
 
     Notes
     -----
-    Wald intervals and z tests, as in Agresti (2010, sec. 7.1.3); the clipping to the
+    Wald intervals and z tests, as in Agresti (2010, ch. 7); the clipping to the
     measure's range is common practice.
     """
     size = len(keys)
@@ -292,6 +320,7 @@ def inference_frame(
     se0 = np.asarray(std_error_null, dtype=float)
     lo, hi = np.asarray(bounds if bounds is not None else [(-1.0, 1.0)] * size, dtype=float).T
     logs = np.asarray(log_scale if log_scale is not None else [False] * size, dtype=bool)
+    bound = np.asarray(on_bound if on_bound is not None else [False] * size, dtype=bool)
     # overflow: a log-scale interval whose end is beyond floating point is +inf (tiny totals)
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
         centre = np.where(logs, np.log(np.where(est > 0, est, np.nan)), est)
@@ -301,6 +330,8 @@ def inference_frame(
         ci_high = np.where(
             logs, np.exp(centre + crit * se), np.minimum(np.maximum(est + crit * se, lo), hi)
         )
+        ci_low = np.where(bound, np.nan, ci_low)
+        ci_high = np.where(bound, np.nan, ci_high)
         z = np.where(se0 > 0, centre / np.where(se0 > 0, se0, 1.0), np.nan)
     p = normal_p_value(z)
     if p_values is not None:
@@ -308,14 +339,13 @@ def inference_frame(
             [normal if other is None else other for normal, other in zip(p, p_values, strict=True)]
         )
     full_notes = []
-    for key, note, e, s, s0 in zip(
-        keys, notes, est.tolist(), se.tolist(), se0.tolist(), strict=True
+    for key, note, e, s0, at_bound in zip(
+        keys, notes, est.tolist(), se0.tolist(), bound.tolist(), strict=True
     ):
         parts = [note] if note else []
         defined = e == e  # not NaN
-        if defined and s == 0 and key != "cramers_v":
-            hint = "; use permutation_test" if key in ORDINAL_MEASURES else ""
-            parts.append(f"estimate at its bound: the delta-method interval is degenerate{hint}")
+        if defined and at_bound:
+            parts.append(BOUND_NOTE)
         if defined and key != "cramers_v" and not s0 > 0:
             parts.append("no variation under independence: no z test")
         full_notes.append("; ".join(parts))

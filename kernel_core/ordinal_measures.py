@@ -6,10 +6,11 @@ gradient ``g_ij`` with respect to the cell counts, and
 
     Var = sum_ij s_ij g_ij^2 - (sum_ij n_ij g_ij)^2 / m
 
-where, for multinomial sampling, ``s_ij = n_ij`` and ``m = n`` (Agresti 2010, sec. 7.1.3 and
-appendix on the delta method); with survey weights ``n_ij`` is the sum of weights in the cell,
-``s_ij`` the sum of squared weights and ``m`` the number of records, which is the Taylor
-linearisation of a with-replacement single-stage sample (Woodruff 1971, JASA 66:411). The
+where, for multinomial sampling, ``s_ij = n_ij`` and ``m = n`` (Agresti 2010, ch. 7;
+the delta method as in Agresti 2013, sec. 16.1); with survey weights ``n_ij`` is the sum of
+weights in the cell, ``s_ij`` the sum of squared weights and ``m`` the number of records,
+which is the Taylor linearisation of a with-replacement single-stage sample (Woodruff 1971,
+JASA 66:411). The
 second term vanishes for measures invariant to the scale of the table (Euler's theorem) but is
 kept because it is what makes the null standard errors right.
 """
@@ -22,7 +23,13 @@ import numpy as np
 
 from .concordance import cell_concordance
 
-__all__ = ["ORDINAL_MEASURES", "Sampling", "ordinal_measure_arrays", "delta_variance"]
+__all__ = [
+    "ORDINAL_MEASURES",
+    "Sampling",
+    "bound_flags",
+    "delta_variance",
+    "ordinal_measure_arrays",
+]
 
 ORDINAL_MEASURES = (
     "gamma",
@@ -67,7 +74,8 @@ def delta_variance(counts: np.ndarray, grad: np.ndarray, sampling: Sampling) -> 
 
     References
     ----------
-    Agresti, A. (2010). Analysis of Ordinal Categorical Data, 2nd ed., sec. 7.1.3.
+    Agresti, A. (2010). Analysis of Ordinal Categorical Data, 2nd ed., Wiley, ch. 7.
+    Agresti, A. (2013). Categorical Data Analysis, 3rd ed., Wiley, sec. 16.1.
     Woodruff, R. S. (1971). A simple method for approximating the variance of a complicated
     estimate. JASA 66, 411-414.
     """
@@ -99,8 +107,78 @@ def _expand(x: np.ndarray) -> np.ndarray:
     return np.asarray(x)[..., None, None]
 
 
+def bound_flags(counts: np.ndarray) -> dict[str, np.ndarray]:
+    """Where each ordinal measure sits on its bound (+1 or -1), decided from pair counts.
+
+    Parameters
+    ----------
+    counts : ndarray, shape (..., I, J)
+        Cell counts or sums of weights.
+
+    Returns
+    -------
+    dict
+        For each key of :data:`ORDINAL_MEASURES`, a boolean array of the batch shape.
+
+    Notes
+    -----
+    Only which cells are non-empty matters, so the decision is made on the table of 0/1
+    indicators, whose pair counts are small exact integers (never on a floating standard
+    error). With ``P``, ``Q`` the concordant and discordant pairs and at least two non-empty
+    categories on each variable (Goodman & Kruskal 1954; Somers 1962; Kendall 1945):
+
+    * gamma (and Yule's Q) is +/-1 exactly when ``Q = 0`` or ``P = 0``;
+    * Somers' d of the columns given the rows is +/-1 when moreover no pair is tied on the
+      column variable alone: every non-empty column category holds units of one row category
+      only (the denominator ``w_r = P + Q + T_col`` then equals ``|P - Q|``); its transpose
+      likewise with rows and columns swapped;
+    * tau-b, the symmetric Somers' d and Spearman's rho (midranks) are +/-1 when both Somers'
+      d are: the non-empty cells form a one-to-one monotone diagonal;
+    * tau-c ``= m (P - Q)/(n^2 (m - 1))`` is +/-1 when the Somers' d whose denominator counts
+      pairs untied on the shorter variable is +/-1 and that variable's non-empty categories
+      hold equal totals (``w_r <= n^2 (1 - 1/I')`` with equality only then; totals count as
+      equal within a relative 1e-12, against the rounding of sums of weights).
+
+    References
+    ----------
+    Goodman, L. A. & Kruskal, W. H. (1954). JASA 49, 732-764.
+    Somers, R. H. (1962). ASR 27, 799-811.
+    Stuart, A. (1953). Biometrika 40, 106-108.
+    """
+    n = np.asarray(counts, dtype=float)
+    filled = (n > 0).astype(float)
+    conc, disc = cell_concordance(filled)
+    no_concordant = (filled * conc).sum(axis=(-2, -1)) == 0
+    no_discordant = (filled * disc).sum(axis=(-2, -1)) == 0
+    rows_used = (filled.sum(axis=-1) > 0).sum(axis=-1)
+    cols_used = (filled.sum(axis=-2) > 0).sum(axis=-1)
+    defined = (rows_used >= 2) & (cols_used >= 2)
+    monotone = defined & (no_concordant | no_discordant)
+    col_given_row = monotone & (filled.sum(axis=-2) <= 1).all(axis=-1)
+    row_given_col = monotone & (filled.sum(axis=-1) <= 1).all(axis=-1)
+    diagonal = col_given_row & row_given_col
+
+    def equal_margin(margin: np.ndarray) -> np.ndarray:
+        top = margin.max(axis=-1)
+        low = np.where(margin > 0, margin, np.inf).min(axis=-1)
+        return top - low <= 1e-12 * top
+
+    tau_c = (col_given_row & (rows_used <= cols_used) & equal_margin(n.sum(axis=-1))) | (
+        row_given_col & (cols_used <= rows_used) & equal_margin(n.sum(axis=-2))
+    )
+    return {
+        "gamma": monotone,
+        "somers_d_col_given_row": col_given_row,
+        "somers_d_row_given_col": row_given_col,
+        "somers_d_symmetric": diagonal,
+        "tau_b": diagonal,
+        "tau_c": tau_c,
+        "spearman_rho": diagonal,
+    }
+
+
 def ordinal_measure_arrays(
-    counts: np.ndarray, sampling: Sampling | None = None
+    counts: np.ndarray, sampling: Sampling | None = None, gradients: bool = False
 ) -> dict[str, dict[str, np.ndarray]]:
     """Estimates, standard errors and null standard errors of the ordinal measures.
 
@@ -110,14 +188,19 @@ def ordinal_measure_arrays(
         Cell counts (or sums of weights) with rows and columns in their order.
     sampling : Sampling, optional
         Survey-weight information for the variances; multinomial counts by default.
+    gradients : bool
+        Also return each measure's ``gradient`` with respect to the cell totals, shape
+        (..., I, J) (for the delta method of functions of several measures).
 
     Returns
     -------
     dict
         For each key of :data:`ORDINAL_MEASURES`, a dict with arrays ``estimate``,
-        ``std_error`` (delta method, no null hypothesis) and ``std_error_null`` (under
-        independence), each of the batch shape. Undefined values are NaN; the caller turns
-        the cause into a note.
+        ``std_error`` (delta method, no null hypothesis), ``std_error_null`` (under
+        independence) and ``on_bound`` (True where the estimate is +/-1, see
+        :func:`bound_flags`; there the estimate is exactly +/-1 and ``std_error`` exactly 0),
+        each of the batch shape, and ``gradient`` when asked for. Undefined values are NaN;
+        the caller turns the cause into a note.
 
     Notes
     -----
@@ -141,7 +224,11 @@ def ordinal_measure_arrays(
     i.e. the same variance rule applied to the gradient ``2 d_ij / den`` of the numerator
     alone (Brown & Benedetti 1977, JASA 72:309). For Spearman's rho it is ``1/sqrt(n - 1)``,
     the exact permutation standard deviation of a correlation (the linear trend test M² with
-    midrank scores, Agresti 2010, sec. 2.2); with survey weights ``n`` is Kish's effective size.
+    midrank scores, Agresti 2010, ch. 2); with survey weights it is the same variance rule
+    applied to the gradient of the numerator under independence, ``u_i v_j`` (centred
+    midranks) (Woodruff 1971): its ratio to the multinomial variance of as many records
+    drawn simply, a design effect (Kish 1965), multiplies ``1/(m - 1)``, ``m`` the
+    number of records, so constant weights give exactly the unweighted value.
 
     These formulas reproduce the published ones: for gamma, for instance,
     ``SE = 4/(P + Q)^2 sqrt(sum n_ij (Q C_ij - P D_ij)^2)``.
@@ -177,11 +264,14 @@ def ordinal_measure_arrays(
     def finish(estimate, grad, null_scale):
         with np.errstate(invalid="ignore"):
             null = numerator_se * np.abs(null_scale)
-        return {
+        found = {
             "estimate": estimate,
             "std_error": np.sqrt(delta_variance(n, grad, sampling)),
             "std_error_null": null,
         }
+        if gradients:
+            found["gradient"] = grad
+        return found
 
     out: dict[str, dict[str, np.ndarray]] = {}
 
@@ -216,7 +306,14 @@ def ordinal_measure_arrays(
         grad = 2 * (d - _expand(S) / N) * _expand(scale)
     out["tau_c"] = finish(S * scale, grad, scale)
 
-    out["spearman_rho"] = _spearman(n, rows, cols, total, sampling)
+    out["spearman_rho"] = _spearman(n, rows, cols, total, sampling, gradients)
+    # On its bound the delta-method error is 0 in exact arithmetic; rounding leaves ~1e-17.
+    for key, flag in bound_flags(n).items():
+        found = out[key]
+        found["on_bound"] = flag
+        if flag.any():
+            found["estimate"] = np.where(flag, np.sign(found["estimate"]), found["estimate"])
+            found["std_error"] = np.where(flag, 0.0, found["std_error"])
     return out
 
 
@@ -225,7 +322,7 @@ def _centred_midranks(margin: np.ndarray, total: np.ndarray) -> np.ndarray:
     return np.cumsum(margin, axis=-1) - margin / 2 - np.asarray(total)[..., None] / 2
 
 
-def _spearman(n, rows, cols, total, sampling):
+def _spearman(n, rows, cols, total, sampling, gradients=False):
     """Spearman's rho with midrank scores: estimate, delta-method and permutation SEs.
 
     With the centred midranks ``u_i = N_(<i) + n_i+/2 - n/2`` and ``v_j`` likewise,
@@ -262,10 +359,26 @@ def _spearman(n, rows, cols, total, sampling):
         )
     se = np.sqrt(delta_variance(n, grad, sampling))
     if sampling.squared is None:
-        size = total
+        with np.errstate(invalid="ignore", divide="ignore"):
+            se_null = np.where(total > 1, 1 / np.sqrt(np.maximum(total - 1, 1e-300)), np.nan)
     else:
-        size = _divide(total**2, sampling.squared.sum(axis=(-2, -1)))  # NaN with no weight
-    with np.errstate(invalid="ignore", divide="ignore"):
-        se_null = np.where(size > 1, 1 / np.sqrt(np.maximum(size - 1, 1e-300)), np.nan)
+        # Under independence R_i = K_j = 0, so the numerator's gradient is u_i v_j. Its
+        # linearised variance against the multinomial one of as many records drawn simply
+        # (N/m times the rule with s = n) is the design effect of the weights on this
+        # statistic; it scales the permutation standard error of the m records, so constant
+        # weights give exactly the unweighted 1/sqrt(m - 1).
+        null_grad = u[..., :, None] * v[..., None, :]
+        weighted = delta_variance(n, null_grad, sampling)
+        records = np.asarray(sampling.records, dtype=float)
+        simple = delta_variance(n, null_grad, Sampling()) * _divide(total, records)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            se_null = np.where(
+                records > 1,
+                np.sqrt(_divide(weighted, simple) / np.maximum(records - 1, 1e-300)),
+                np.nan,
+            )
     se_null = np.where(np.isnan(rho), np.nan, se_null)
-    return {"estimate": rho, "std_error": se, "std_error_null": se_null}
+    found = {"estimate": rho, "std_error": se, "std_error_null": se_null}
+    if gradients:
+        found["gradient"] = grad
+    return found

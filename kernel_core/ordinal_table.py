@@ -17,10 +17,12 @@ from .control_variable import (
     partial_measures,
     single_level,
 )
+from .cumulative_logit import cumulative_logit_frame
 from .diagnostics import Diagnostics, diagnose
 from .independence import PermutationResult, permutation_test, tests_frame
 from .measure_table import measures_frame
 from .ordinal_measures import Sampling
+from .polychoric import polychoric
 from .steps import ExcludeStep, MergeStep, OrderStep, Step, default_merge_label, label_list
 
 __all__ = ["OrdinalTable"]
@@ -105,6 +107,12 @@ class OrdinalTable:
     records: np.ndarray | None = None  # (K, I, J) data rows per cell when weight_kind == "sampling"
     origin: Origin = field(default_factory=lambda: Origin("counts"))
     initial_steps: int = 0
+    # The table as collected (None: this one) and where each of its categories went here: the
+    # position in this table, or -1 when left out. Kept so that two codings of the same data
+    # can be compared with a paired standard error (see rankfold.coding_change).
+    collected_from: OrdinalTable | None = field(default=None, repr=False)
+    row_map: tuple[int, ...] | None = field(default=None, repr=False)
+    col_map: tuple[int, ...] | None = field(default=None, repr=False)
 
     def __post_init__(self) -> None:
         for name in ("cells", "squared_weights", "records"):
@@ -143,6 +151,32 @@ class OrdinalTable:
             return Sampling()
         return Sampling(self.squared_weights.sum(axis=0), self.records.sum())
 
+    @property
+    def collected(self) -> OrdinalTable:
+        """The table as collected, before any merge, exclusion or reorder made here.
+
+        Every coding of one table shares it (by identity), which is how
+        :func:`rankfold.compare_measures` knows two tables are codings of the same data.
+        :meth:`transpose` and :meth:`control_table` start afresh: their result is its own
+        collected table.
+        """
+        return self if self.collected_from is None else self.collected_from
+
+    def coding_maps(self) -> tuple[np.ndarray, np.ndarray]:
+        """Where each row and column category of :attr:`collected` went in this table.
+
+        Returns
+        -------
+        (ndarray, ndarray)
+            For each collected row (column) category, its position in this table, or -1 when
+            it was left out; merged categories share a position. The coded cells are
+            ``n[k, i, j] = sum of collected n[k, a, b] over row_map[a] == i, col_map[b] == j``,
+            a linear map of the collected counts.
+        """
+        if self.collected_from is None:
+            return np.arange(len(self.row_labels)), np.arange(len(self.col_labels))
+        return np.asarray(self.row_map), np.asarray(self.col_map)
+
     # ----------------------------------------------------------------------- statistics
     def pairs(self) -> dict[str, int | float]:
         """Counts of concordant, discordant and tied pairs of units.
@@ -156,7 +190,7 @@ class OrdinalTable:
         Notes
         -----
         Counted on the table pooled over the control variable; the formulas and their source are in
-        :func:`rankfold.concordance.pair_counts` (Agresti 2010, sec. 7.1.1).
+        :func:`rankfold.concordance.pair_counts` (Agresti 2010, ch. 7).
         """
         return pair_counts(self._pooled())
 
@@ -182,9 +216,15 @@ class OrdinalTable:
         ``std_error`` is the delta-method asymptotic standard error and the interval is
         ``estimate +/- z_(1-alpha/2) std_error`` clipped to the measure's range;
         ``std_error_null`` is the standard error under independence, ``z`` = estimate /
-        ``std_error_null`` and ``p_value`` is two-sided normal. Formulas and sources are in
-        :func:`rankfold.ordinal_measures.ordinal_measure_arrays`; undefined measures are NaN
-        with the reason in ``note``. An association is not evidence of a cause, and choosing
+        ``std_error_null`` and ``p_value`` is two-sided normal. For the ratio measures
+        (``odds_ratio``, ``relative_risk``) both standard errors and ``z`` refer to the
+        logarithm of the estimate, and the interval is ``exp(log(estimate) +/- z_(1-alpha/2)
+        std_error)``. An estimate on an end of its range (gamma = +/-1 when no pair is
+        discordant, say) has no delta-method interval: NaN, with a note. With a control
+        variable the table is pooled over its levels and treated as one sample. Formulas and
+        sources are in :func:`rankfold.ordinal_measures.ordinal_measure_arrays` and
+        :func:`rankfold.two_by_two.two_by_two_measures`; undefined measures are NaN with the
+        reason in ``note``. An association is not evidence of a cause, and choosing
         a coding because it gives the strongest value inflates false findings.
 
         References
@@ -208,12 +248,22 @@ class OrdinalTable:
             variable). A table with a control variable adds ``cmh_correlation`` (association
             within levels, same
             scores, midranks taken within each level) and ``gamma_homogeneity``, see
-            :func:`rankfold.control_variable.control_tests`.
+            :func:`rankfold.control_variable.control_tests`. The row ``latent_normal_fit`` is
+            the G² test of the latent bivariate normal behind the polychoric correlation, on
+            ``IJ - I - J`` degrees of freedom (Olsson 1979, Psychometrika 44:443; see
+            :func:`rankfold.polychoric.polychoric`).
         """
         frame = tests_frame(self._pooled(), scores, sampling=self._sampling())
-        if self.control_name is None:
-            return frame
-        return pd.concat([frame, control_tests(self, scores)])
+        latent = polychoric(self._pooled(), self._sampling())
+        fit = pd.DataFrame(
+            {"statistic": latent.fit_statistic, "df": latent.fit_df,
+             "p_value": latent.fit_p_value, "note": latent.fit_note},
+            index=pd.Index(["latent_normal_fit"], name=frame.index.name),
+        )
+        parts = [frame, fit]
+        if self.control_name is not None:
+            parts.append(control_tests(self, scores))
+        return pd.concat(parts)
 
     def permutation_test(
         self,
@@ -248,7 +298,7 @@ class OrdinalTable:
         -----
         Tables are drawn and the p-value counted as in
         :func:`rankfold.independence.permutation_test` (Patefield 1981; Davison & Hinkley
-        1997, sec. 4.2), which lists the references.
+        1997, ch. 4), which lists the references.
         """
         if self.weight_kind == "sampling":
             raise ValueError(
@@ -318,7 +368,9 @@ class OrdinalTable:
         """
         return control_measures(self, confidence)
 
-    def partial_measures(self, confidence: float = 0.95) -> pd.DataFrame:
+    def partial_measures(
+        self, confidence: float = 0.95, control_totals: str = "random"
+    ) -> pd.DataFrame:
         """Partial gamma: the association within levels, pooled (Davis 1967, JASA 62:189).
 
         Compare with :meth:`control_measures` and the ``gamma_homogeneity`` row of :meth:`tests`
@@ -328,6 +380,11 @@ class OrdinalTable:
         ----------
         confidence : float
             Level of its Wald interval, strictly between 0 and 1.
+        control_totals : {'random', 'fixed'}
+            How the level sizes arose, for the standard error: ``"random"`` (default; the
+            level of a unit is random, one multinomial over every cell, or with sampling
+            weights all records one sample) or ``"fixed"`` (sizes fixed by the design:
+            each level a sample of its own).
 
         Returns
         -------
@@ -340,7 +397,56 @@ class OrdinalTable:
         Davis, J. A. (1967). A partial coefficient for Goodman and Kruskal's gamma. JASA 62,
         189-193.
         """
-        return partial_measures(self, confidence)
+        return partial_measures(self, confidence, control_totals)
+
+    def cumulative_logit(
+        self,
+        response: str = "cols",
+        scores: str | Sequence[float] | None = None,
+        confidence: float = 0.95,
+    ) -> pd.DataFrame:
+        """The proportional-odds (cumulative-logit) model of one variable on the other.
+
+        Fits ``logit P(Y <= j | x) = alpha_j - beta x`` (McCullagh 1980, JRSS B 42:109), with
+        ``Y`` the ``response`` variable and ``x`` the other variable's scores; with a control
+        variable, each level has its own cut-points ``alpha_kj`` and the slope is common.
+
+        Parameters
+        ----------
+        response : {'cols', 'rows'}
+            The variable whose cumulative odds are modelled.
+        scores : {'positions', 'midranks'} or sequence of float, optional
+            Scores of the other variable: positions 1, 2, ... (default), midranks, or one
+            increasing number per category. Merging categories of the scored variable
+            changes what one step of ``x`` means, so the slope is only comparable across
+            codings that keep that variable's categories.
+        confidence : float
+            Confidence level of the Wald intervals.
+
+        Returns
+        -------
+        pandas.DataFrame
+            Row ``slope`` (beta, the log cumulative odds ratio per step of ``x``, with its
+            standard error, interval, z and p), then one row per cut-point; ``frame.attrs``
+            holds the deviance and the likelihood-ratio test of proportional odds against
+            separate slopes per cut-point. See
+            :func:`rankfold.cumulative_logit.cumulative_logit_frame`.
+
+        References
+        ----------
+        McCullagh, P. (1980). Regression models for ordinal data. JRSS B 42, 109-142.
+        """
+        controlled = self.control_name is not None
+        sampling = Sampling()
+        if self.squared_weights is not None:
+            squared = self.squared_weights if controlled else self.squared_weights.sum(axis=0)
+            sampling = Sampling(squared, float(np.asarray(self.records).sum()))
+        return cumulative_logit_frame(
+            self.cells if controlled else self._pooled(), response=response, scores=scores,
+            sampling=sampling, confidence=confidence, row_labels=self.row_labels,
+            col_labels=self.col_labels,
+            control_labels=self.control_labels if controlled else None,
+        )
 
     # --------------------------------------------------------------------- coding steps
     def _labels(self, axis: int) -> tuple:
@@ -365,8 +471,17 @@ class OrdinalTable:
             return np.stack(parts, axis=axis)
 
         key = "row_labels" if axis == 1 else "col_labels"
+        maps = list(self.coding_maps())
+        moved = np.full(len(self._labels(axis)), -1)
+        for k, members in enumerate(index):
+            moved[members] = k
+        old = maps[axis - 1]
+        maps[axis - 1] = np.where(old >= 0, moved[np.maximum(old, 0)], -1)
         return replace(
             self,
+            collected_from=self.collected,
+            row_map=tuple(int(x) for x in maps[0]),
+            col_map=tuple(int(x) for x in maps[1]),
             cells=regroup(self.cells),
             squared_weights=regroup(self.squared_weights),
             records=regroup(self.records),
@@ -567,6 +682,9 @@ class OrdinalTable:
                 },
             ),
             initial_steps=len(self.steps),
+            collected_from=None,
+            row_map=None,
+            col_map=None,
         )
 
     # ------------------------------------------------------------------- reproducibility

@@ -73,7 +73,7 @@ def pair_regions(counts: np.ndarray, row: int, col: int) -> PairRegions:
     -----
     For the cell ``(i, j)`` a unit in a cell ``(k, l)`` with ``k < i, l < j`` or
     ``k > i, l > j`` is concordant with its units and one with ``k < i, l > j`` or
-    ``k > i, l < j`` is discordant (Goodman & Kruskal 1954; Agresti 2010, sec. 7.1). The region
+    ``k > i, l < j`` is discordant (Goodman & Kruskal 1954; Agresti 2010, ch. 7). The region
     totals are the row of :func:`rankfold.cell_concordance` for that cell: units concordant
     ``C_ij`` and discordant ``D_ij``, so the cell contributes ``n_ij C_ij`` concordant and
     ``n_ij D_ij`` discordant pairs; summed over all cells these count every pair twice, which is
@@ -85,7 +85,7 @@ def pair_regions(counts: np.ndarray, row: int, col: int) -> PairRegions:
     ----------
     Goodman, L. A. & Kruskal, W. H. (1954). Measures of association for cross classifications.
     JASA 49, 732-764.
-    Agresti, A. (2010). Analysis of Ordinal Categorical Data, 2nd ed., Wiley, sec. 7.1.
+    Agresti, A. (2010). Analysis of Ordinal Categorical Data, 2nd ed., Wiley, ch. 7.
 
     Examples
     --------

@@ -52,7 +52,7 @@ def test_all_zero_table_gives_nan_with_reason():
 @pytest.mark.parametrize("counts", [[[1, 2, 3]], [[0, 0, 0], [4, 0, 5]], [[2, 0], [0, 0]]])
 def test_one_used_row_makes_every_measure_nan_with_reason(counts):
     # Common practice: with a single row category there are no pairs untied on the row
-    # variable, so no ordinal association can be measured (the issue names "one row").
+    # variable, so no ordinal association can be measured.
     frame = silent_measures(counts)
     for key in [*ORDINAL, "cramers_v"]:
         assert np.isnan(frame.loc[key, "estimate"]), key
@@ -73,11 +73,12 @@ def test_tests_need_two_categories_each():
 
 
 def test_perfect_association_is_flagged_not_hidden():
-    # gamma = 1 with a zero delta-method error: the note must warn that the interval is
-    # degenerate rather than show a spurious zero-width certainty without comment.
+    # gamma = 1 with a zero delta-method error (Goodman & Kruskal 1963): no zero-width
+    # interval shown as certainty; the note says the estimate is on its bound instead.
     frame = silent_measures([[5, 0], [0, 6]])
     assert frame.loc["gamma", "estimate"] == 1
-    assert "degenerate" in frame.loc["gamma", "note"]
+    assert "at its bound" in frame.loc["gamma", "note"]
+    assert np.isnan(frame.loc["gamma", ["ci_low", "ci_high"]].astype(float)).all()
 
 
 def test_weighted_tiny_counts_with_rounding_stay_silent():

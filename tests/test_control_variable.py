@@ -83,16 +83,26 @@ def numerical_gradient(f, cells: np.ndarray, h: float = 1e-4) -> np.ndarray:
 
 
 def stratified_delta_se(cells, grad, squared=None, records=None) -> float:
-    """sqrt(sum_k [sum s g^2 - (sum n g)^2 / m_k]): the delta method with independent levels
-    (formula stated in issue 5; Bishop, Fienberg & Holland 1975, ch. 14). s = n and m_k = n_k
-    for counts; s = sum of squared weights and m_k = records of level k for survey weights
-    (Woodruff 1971)."""
+    """sqrt(sum_k [sum s g^2 - (sum n g)^2 / m_k]): the delta method for independent
+    multinomials, one per level (product-multinomial sampling, Bishop, Fienberg & Holland
+    1975, ch. 14). s = n and m_k = n_k for counts; s = sum of squared weights and m_k =
+    records of level k for survey weights (Woodruff 1971)."""
     s = cells if squared is None else squared
     total = 0.0
     for k in range(cells.shape[0]):
         m = cells[k].sum() if records is None else records[k]
         total += (s[k] * grad[k] ** 2).sum() - (cells[k] * grad[k]).sum() ** 2 / m
     return float(np.sqrt(total))
+
+
+def whole_table_delta_se(cells, grad, squared=None, records=None) -> float:
+    """sqrt(sum s g^2 - (sum n g)^2 / m) over every cell of the K x I x J table: the delta
+    method for one multinomial (Bishop, Fienberg & Holland 1975, ch. 14), the level of each
+    unit being random; with survey weights the linearisation over all records (Woodruff
+    1971)."""
+    s = cells if squared is None else squared
+    m = cells.sum() if records is None else np.sum(records)
+    return float(np.sqrt((s * grad**2).sum() - (cells * grad).sum() ** 2 / m))
 
 
 # -------------------------------------------------------------------------- per-level views
@@ -144,7 +154,8 @@ def test_partial_gamma_equals_brute_force_pairs(clinics, controlled):
     assert abs(row["estimate"] - controlled.measures().loc["gamma", "estimate"]) > 0.02
 
 
-def test_partial_gamma_standard_errors_equal_numerical_gradient(controlled):
+@pytest.mark.parametrize("control_totals", ["random", "fixed"])
+def test_partial_gamma_standard_errors_equal_numerical_gradient(controlled, control_totals):
     cells = controlled.cells.astype(float)
     grad = numerical_gradient(partial_gamma_loops, cells)
     P, Q = pairs_from_cells(cells)
@@ -154,27 +165,96 @@ def test_partial_gamma_standard_errors_equal_numerical_gradient(controlled):
         return (p - q) / (P + Q)
 
     grad_null = numerical_gradient(numerator_over_fixed_denominator, cells)
-    row = controlled.partial_measures(confidence=0.95).loc["partial_gamma"]
-    assert row["std_error"] == pytest.approx(stratified_delta_se(cells, grad), rel=1e-6)
-    assert row["std_error_null"] == pytest.approx(stratified_delta_se(cells, grad_null), rel=1e-6)
-    # Wald interval and normal z test (Agresti 2010, sec. 7.1.3)
+    reference = whole_table_delta_se if control_totals == "random" else stratified_delta_se
+    row = controlled.partial_measures(0.95, control_totals).loc["partial_gamma"]
+    assert row["std_error"] == pytest.approx(reference(cells, grad), rel=1e-6)
+    assert row["std_error_null"] == pytest.approx(reference(cells, grad_null), rel=1e-6)
+    # Wald interval and normal z test (Agresti 2010, ch. 7)
     crit = stats.norm.ppf(0.975)
     assert row["ci_low"] == pytest.approx(row["estimate"] - crit * row["std_error"])
     z = row["estimate"] / row["std_error_null"]
     assert row["p_value"] == pytest.approx(2 * stats.norm.sf(abs(z)), rel=1e-9, abs=0)
 
 
-def test_partial_gamma_standard_error_matches_simulation(controlled):
-    # Monte Carlo: draw each level as a multinomial sample of its own size from its observed
-    # proportions (the sampling model the standard error assumes) and compare the spread.
-    rng = np.random.default_rng(20240501)
+def simulated_partial_gammas(cells: np.ndarray, control_totals: str, draws: int, seed: int):
+    """Partial gamma of tables drawn the way each option says the data arose (simulation).
+
+    "random": every unit's level, row and column come from one multinomial over the
+    K x I x J table (the level of a respondent is random, as in an ordinary survey).
+    "fixed": each level is a multinomial sample of its own, observed size (a stratified
+    design). The probabilities are the observed proportions.
+    """
+    rng = np.random.default_rng(seed)
+    if control_totals == "random":
+        tables = rng.multinomial(int(cells.sum()), (cells / cells.sum()).ravel(), size=draws)
+        tables = tables.reshape(draws, *cells.shape)
+    else:
+        tables = np.stack(
+            [rng.multinomial(int(c.sum()), (c / c.sum()).ravel(), size=draws).reshape(
+                draws, *c.shape) for c in cells], axis=1)
+    return partial_gamma_arrays(tables.astype(float), control_totals=control_totals)
+
+
+@pytest.mark.parametrize("control_totals", ["random", "fixed"])
+def test_partial_gamma_standard_error_matches_simulation(controlled, control_totals):
+    # Monte Carlo, 5,000 seeded draws made the way the option says the data arose: the
+    # standard error on the observed table is within 3% of the spread of the estimates, and
+    # the errors of the simulated tables average to it too.
     cells = controlled.cells.astype(float)
-    draws = np.stack(
-        [rng.multinomial(int(c.sum()), (c / c.sum()).ravel(), size=4000).reshape(-1, *c.shape)
-         for c in cells], axis=1)
-    spread = np.nanstd(partial_gamma_arrays(draws)["estimate"], ddof=1)
-    se = controlled.partial_measures().loc["partial_gamma", "std_error"]
-    assert se == pytest.approx(spread, rel=0.10)
+    found = simulated_partial_gammas(cells, control_totals, 5000, seed=20240501)
+    spread = np.nanstd(found["estimate"], ddof=1)
+    se = controlled.partial_measures(control_totals=control_totals).loc[
+        "partial_gamma", "std_error"]
+    assert se == pytest.approx(spread, rel=0.03)
+    assert np.nanmean(found["std_error"]) == pytest.approx(spread, rel=0.03)
+
+
+def test_partial_gamma_random_levels_error_is_larger_than_fixed_on_this_survey(controlled):
+    # Conditioning on the level sizes removes their variation (Bishop, Fienberg & Holland
+    # 1975, ch. 14: product-multinomial variances are never larger): here the levels' gammas
+    # differ, so the default is clearly larger, and the simulation with random level sizes
+    # rejects the fixed-size error.
+    random_se, fixed_se = (
+        controlled.partial_measures(control_totals=c).loc["partial_gamma", "std_error"]
+        for c in ("random", "fixed"))
+    assert random_se > 1.05 * fixed_se
+    spread = np.nanstd(simulated_partial_gammas(controlled.cells.astype(float), "random",
+                                                5000, seed=11)["estimate"], ddof=1)
+    assert abs(fixed_se / spread - 1) > 0.05
+
+
+def test_partial_gamma_weighted_error_follows_the_design(controlled):
+    # Simulation of a survey with sampling weights, 3,000 seeded samples of 600 records: each
+    # record's level, dose and relief drawn from the clinic proportions (level random), its
+    # weight rising with the level and the relief. The default linearised error over all
+    # records (Woodruff 1971) is within 5% of the spread of the weighted estimates; the
+    # weighted error is the same as the unweighted one at constant weights.
+    cells = controlled.cells.astype(float)
+    rng = np.random.default_rng(99)
+    draws, size = 3000, 600
+    flat = rng.choice(cells.size, p=(cells / cells.sum()).ravel(), size=(draws, size))
+    k, _, j = np.unravel_index(flat, cells.shape)
+    weight = (1.0 + k) * (1.0 + 0.5 * j) * rng.uniform(0.5, 1.5, size=flat.shape)
+    offsets = (np.arange(draws) * cells.size)[:, None]
+    total = np.bincount((flat + offsets).ravel(), weight.ravel(), draws * cells.size)
+    squared = np.bincount((flat + offsets).ravel(), (weight**2).ravel(), draws * cells.size)
+    records = np.bincount((flat + offsets).ravel(), None, draws * cells.size)
+    shape = (draws, *cells.shape)
+    per_level = records.reshape(shape).sum(axis=(-2, -1))
+    found = partial_gamma_arrays(
+        total.reshape(shape), rankfold.ordinal_measures.Sampling(squared.reshape(shape),
+                                                                 per_level))
+    spread = np.nanstd(found["estimate"], ddof=1)
+    assert np.nanmean(found["std_error"]) == pytest.approx(spread, rel=0.05)
+    plain = partial_gamma_arrays(cells)
+    constant = partial_gamma_arrays(
+        cells * 3.0, rankfold.ordinal_measures.Sampling(cells * 9.0, cells.sum(axis=(-2, -1))))
+    assert float(constant["std_error"]) == pytest.approx(float(plain["std_error"]), rel=1e-9)
+
+
+def test_control_totals_must_be_random_or_fixed(controlled):
+    with pytest.raises(ValueError, match="control_totals"):
+        controlled.partial_measures(control_totals="stratified")
 
 
 def test_partial_gamma_batch_equals_one_by_one(controlled):

@@ -113,7 +113,7 @@ def test_proportional_odds_test_matches_separate_slopes_fit():
     lr = 2 * (separate.fun * -1 - common.fun * -1)
     assert fit.proportional_odds_statistic == pytest.approx(lr, abs=1e-4)
     assert fit.proportional_odds_df == 3
-    # deviance against the saturated model of the table (Agresti 2010, sec. 3.4)
+    # deviance against the saturated model of the table (Agresti 2010, ch. 3)
     rows = n.sum(axis=-1)
     sat = (n[n > 0] * np.log((n / rows[..., None])[n > 0])).sum()
     assert fit.deviance == pytest.approx(2 * (sat + common.fun), abs=1e-4)
@@ -201,7 +201,7 @@ def test_batch_equals_single_tables(rng):
 
 def test_undefined_cases_give_nan_with_reasons():
     # Common practice: no slope with one category, and none under perfect separation (no
-    # discordant pairs: the likelihood rises without bound in beta; Agresti 2010, sec. 3.4).
+    # discordant pairs: the likelihood rises without bound in beta; Agresti 2010, ch. 3).
     one = cumulative_logit(np.array([[5.0, 0], [7, 0]]))
     assert np.isnan(one.slope) and "response" in one.note
     perfect = cumulative_logit(np.array([[5.0, 3, 0], [0, 4, 6]]))

@@ -1,4 +1,4 @@
-"""Awkward but realistic inputs found in review: each case gives a right number, NaN with a
+"""Awkward but realistic inputs: each case gives a right number, NaN with a
 reason, or a ValueError that says what to fix; never a deep traceback or a warning."""
 
 from __future__ import annotations
@@ -211,7 +211,7 @@ def test_log_scale_intervals_of_tiny_totals_stay_quiet():
 # -------------------------------------------------------------------------- huge counts
 def concordance_by_definition(counts):
     """Units strictly above-left or below-right (C) and above-right or below-left (D) of each
-    cell, in exact integers by the definition (Agresti 2010, sec. 7.1)."""
+    cell, in exact integers by the definition (Agresti 2010, ch. 7)."""
     rows, cols = len(counts), len(counts[0])
     cells = [(k, m, counts[k][m]) for k in range(rows) for m in range(cols)]
     conc = [[sum(x for k, m, x in cells if (k - i) * (m - j) > 0) for j in range(cols)]
@@ -227,7 +227,7 @@ def test_two_by_two_measures_are_exact_at_huge_counts(counts):
     (a, b), (c, d) = counts
     m = rankfold.table_from_counts(counts).measures()
     # Source: for a 2 x 2 table Somers' d (column given row) is the difference of
-    # proportions (a d - b c) / ((a + b)(c + d)) (Agresti 2010, sec. 7.1.4), and tau-b and
+    # proportions (a d - b c) / ((a + b)(c + d)) (Agresti 2010, ch. 7), and tau-b and
     # Spearman's rho with midranks both equal phi = (a d - b c) / sqrt(r1 r2 c1 c2)
     # (common practice); evaluated here in exact rational arithmetic.
     somers = Fraction(a * d - b * c, (a + b) * (c + d))
@@ -256,7 +256,7 @@ def test_null_standard_error_is_exact_at_huge_counts():
 
 def test_weighted_table_without_discordant_pairs_has_gamma_exactly_one():
     # Source: Goodman & Kruskal (1954, JASA 49:732): with no discordant pair gamma is 1, and
-    # its delta-method standard error is 0 (Agresti 2010, sec. 7.1.3), which the note flags.
+    # its delta-method standard error is 0 (Agresti 2010, ch. 7), which the note flags.
     counts = np.diag([12.37, 0.91, 33.3, 7.05])
     counts[0, 1], counts[2, 3] = 1.3, 2.71
     table = rankfold.table_from_counts(counts)

@@ -100,7 +100,7 @@ def midranks(margin: np.ndarray) -> np.ndarray:
 def test_linear_by_linear_matches_statsmodels(counts):
     t = rankfold.table_from_counts(counts)
     # Source: statsmodels Table.test_ordinal_association; its z is the permutation-moment
-    # standardised sum of u_i v_j, so z^2 = (n - 1) r^2 = M^2 (Agresti 2010, sec. 2.2.1).
+    # standardised sum of u_i v_j, so z^2 = (n - 1) r^2 = M^2 (Agresti 2010, ch. 2).
     # shift_zeros=False: statsmodels otherwise adds 0.5 to every cell of a table with a zero.
     reference = Table(counts, shift_zeros=False)
     by_position = reference.test_ordinal_association()
@@ -122,7 +122,7 @@ def test_linear_by_linear_matches_statsmodels(counts):
 def test_spearman_null_z_squared_is_the_midrank_linear_by_linear_statistic(counts):
     # Source: statsmodels test_ordinal_association with midrank scores. With midranks the
     # linear-by-linear r is Spearman's rho, so (rho / SE0)^2 = (n - 1) rho^2 = M^2
-    # (Agresti 2010, sec. 2.2.3).
+    # (Agresti 2010, ch. 2).
     frame = rankfold.table_from_counts(counts).measures()
     row_mid, col_mid = midranks(counts.sum(axis=1)), midranks(counts.sum(axis=0))
     reference = Table(counts, shift_zeros=False).test_ordinal_association(

@@ -106,7 +106,7 @@ def test_pair_counts_exact_on_a_larger_table_at_huge_counts():
 
 
 def test_weighted_counts_give_float_pairs():
-    # Source: the unordered pair formulas of Agresti (2010, sec. 7.1.1) applied by hand to a
+    # Source: the unordered pair formulas of Agresti (2010, ch. 7) applied by hand to a
     # 2 x 2 table with non-integer totals: C = n11 n22, D = n12 n21.
     got = rankfold.table_from_counts([[1.5, 2.0], [0.5, 3.0]]).pairs()
     assert got["concordant"] == pytest.approx(4.5)

@@ -28,7 +28,7 @@ def tables_with_margins(rows, cols):
 
 def exact_permutation_p(counts, measure: str) -> float:
     # Source: exact conditional distribution given both margins, the multivariate
-    # hypergeometric P(table) = prod r_i! prod c_j! / (n! prod n_ij!) (Agresti 2013, sec. 3.5),
+    # hypergeometric P(table) = prod r_i! prod c_j! / (n! prod n_ij!) (Agresti 2013, ch. 3),
     # summed over every table at least as extreme, by full enumeration.
     rows, cols = counts.sum(axis=1), counts.sum(axis=0)
     n = int(counts.sum())
@@ -56,7 +56,7 @@ def test_monte_carlo_p_value_is_close_to_the_exact_one(measure):
 
 
 def test_p_value_is_counted_as_published():
-    # Source: Davison & Hinkley (1997, sec. 4.2): p = (1 + #{|T*| >= |T|}) / (B + 1).
+    # Source: Davison & Hinkley (1997, ch. 4): p = (1 + #{|T*| >= |T|}) / (B + 1).
     result = rankfold.table_from_counts(SMALL).permutation_test("gamma", n_resamples=500, seed=1)
     count = int(np.sum(np.abs(result.null_distribution) >= abs(result.statistic) - 1e-12))
     assert result.p_value == (1 + count) / 501
@@ -99,3 +99,50 @@ def test_permutation_test_refuses_what_it_cannot_do():
         rankfold.table_from_counts([[1, 2, 3]]).permutation_test("tau_b")
     with pytest.raises(ValueError, match="positive"):
         rankfold.table_from_counts(SMALL).permutation_test(n_resamples=0)
+
+
+@pytest.mark.parametrize("counts", [
+    [[2**32, 1], [1, 2**32]],
+    [[10**12, 10**11], [10**11, 10**12]],
+    [[3_500_000_000, 0], [0, 3_500_000_000]],
+    [[2**30, 2**30], [2**30, 2**30]],  # 2**32 units
+    [[2**31 - 1, 1], [0, 0]],  # one above the limit
+])
+def test_huge_totals_are_refused_before_anything_is_drawn(counts, monkeypatch):
+    # scipy.stats.random_table breaks above 2**31 - 1 units (measured in subprocesses: wrong
+    # or constant tables, or a crash); the test must refuse before calling it.
+    from scipy import stats
+
+    def refuse(*args, **kwargs):
+        raise AssertionError("random_table was called")
+
+    monkeypatch.setattr(stats, "random_table", refuse)
+    with pytest.raises(ValueError, match=r"2\*\*31 - 1.*measures\(\) and tests\(\)"):
+        rankfold.table_from_counts(counts).permutation_test("gamma", n_resamples=10, seed=1)
+
+
+def test_largest_total_accepted_gives_a_right_null(tmp_path):
+    # At the limit (2**31 - 1 units) the drawn tables must follow the hypergeometric law of
+    # n11 given both margins (scipy.stats.hypergeom mean and variance). Run in a subprocess,
+    # so that a generator failure could never take the test process down.
+    import subprocess
+    import sys
+
+    script = tmp_path / "at_limit.py"
+    script.write_text(
+        "import numpy as np, rankfold\n"
+        "from scipy import stats\n"
+        "t = np.array([[900_000_000, 173_741_823], [173_741_824, 900_000_000]])\n"
+        "assert t.sum() == 2**31 - 1\n"
+        "r = rankfold.table_from_counts(t).permutation_test('tau_b', 400, seed=5)\n"
+        "rows, cols, n = t.sum(1), t.sum(0), int(t.sum())\n"
+        "law = stats.hypergeom(n, int(cols[0]), int(rows[0]))\n"
+        "d = stats.random_table(rows, cols, seed=5).rvs(size=400)[:, 0, 0].astype(float)\n"
+        "print(r.p_value, d.mean() - law.mean(), d.var() / law.var())\n"
+    )
+    done = subprocess.run([sys.executable, str(script)], capture_output=True, text=True,
+                          timeout=300)
+    assert done.returncode == 0, done.stderr
+    p_value, shift, ratio = map(float, done.stdout.split())
+    assert p_value == pytest.approx(1 / 401)  # a strong association: no null table as far
+    assert abs(shift) < 4 * np.sqrt(2**31 / 16 / 400) and 0.8 < ratio < 1.25

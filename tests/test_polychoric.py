@@ -17,7 +17,7 @@ from rankfold.polychoric import bivariate_normal_cdf, polychoric, polychoric_arr
 
 
 def reference_fit(n: np.ndarray) -> float:
-    """Two-step ML written from Olsson (1979, sec. 2): thresholds Phi^-1 of the cumulative
+    """Two-step ML written from Olsson (1979): thresholds Phi^-1 of the cumulative
     margins, then rho maximising sum n log pi with scipy's bivariate normal CDF."""
     n = np.asarray(n, dtype=float)
     n = n[n.sum(axis=1) > 0][:, n.sum(axis=0) > 0]
@@ -82,7 +82,7 @@ def test_estimate_matches_independent_ml_fit(seed):
 
 def test_linearised_gradient_matches_numerical_differences():
     # Outside reference: central differences of the independent ML fit in each cell total, put
-    # through the multinomial delta-method variance sum n (g - gbar)^2 (Agresti 2010, 7.1.3).
+    # through the multinomial delta-method variance sum n (g - gbar)^2 (Agresti 2010, ch. 7).
     n = np.array([[30.0, 12, 5, 2], [14, 25, 16, 6], [3, 11, 22, 31]])
     step = 1e-3
     grad = np.zeros_like(n)

@@ -56,7 +56,7 @@ def test_merging_equals_summing_rows_and_columns(counts, data):
 @given(tables(), st.sampled_from([2, 3, 7.5, 0.01]))
 def test_estimates_do_not_change_when_all_counts_are_multiplied(counts, factor):
     # Common practice: the measures depend on the cell proportions only, and delta-method
-    # standard errors shrink by sqrt(factor) (Agresti 2010, sec. 7.1.3: SE ~ 1/sqrt(n)).
+    # standard errors shrink by sqrt(factor) (Agresti 2010, ch. 7: SE ~ 1/sqrt(n)).
     base, scaled = measures(counts), measures(counts * factor)
     close(scaled.loc[ORDINAL, "estimate"], base.loc[ORDINAL, "estimate"], rtol=1e-9)
     close(scaled.loc[ORDINAL, "std_error"] * np.sqrt(factor), base.loc[ORDINAL, "std_error"],

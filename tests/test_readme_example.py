@@ -19,3 +19,10 @@ def test_readme_python_example_runs() -> None:
     exec(namespace["merged"].to_code(), rebuilt)  # the printed code rebuilds the same table
     pd.testing.assert_frame_equal(rebuilt["measures"], namespace["merged"].measures())
     assert isinstance(namespace["df2"]["service_rating"].dtype, pd.CategoricalDtype)
+
+
+def test_every_later_readme_example_runs_after_the_first() -> None:
+    blocks = re.findall(r"```python\n(.*?)```", README.read_text(encoding="utf-8"), re.S)
+    namespace: dict = {}
+    for block in blocks:  # in reading order, as a reader would run them
+        exec(block, namespace)  # noqa: S102 - our own README

@@ -316,9 +316,37 @@ def test_engine_counts_stay_exact_at_population_scale():
     t = rankfold.table(relation, "a", "b", weight="units")
     assert t.cells.dtype == np.int64
     assert t.counts.to_numpy().tolist() == [[10**11, 3], [5, 10**11 + 7]]
-    # 2 x 2 case of Agresti (2010, sec. 7.1.1): C = n11 n22, D = n12 n21.
+    # 2 x 2 case of Agresti (2010, ch. 7): C = n11 n22, D = n12 n21.
     assert t.pairs()["concordant"] == 10**11 * (10**11 + 7)
     assert t.pairs()["discordant"] == 15
+
+
+@pytest.mark.parametrize("engine", ["pandas", "duckdb", "polars"])
+def test_frequency_weights_beyond_int64_never_wrap(engine):
+    # Six records of weight 5e18: cell totals of 1e19 exceed int64 (2**63 - 1 = 9.2e18, numpy
+    # iinfo). They must stay the sums of the weights (by hand: 2 x 5e18 on the diagonal),
+    # never wrap to negative counts, and the estimates follow the proportions (gamma of
+    # [[2, 1], [1, 2]] is (4 - 1)/(4 + 1) = 0.6 by hand).
+    frame = pd.DataFrame({"a": [1, 1, 2, 2, 1, 2], "b": [1, 2, 1, 2, 1, 2], "w": [5e18] * 6})
+    if engine == "duckdb":
+        source = duckdb.from_df(frame)
+    elif engine == "polars":
+        source = pytest.importorskip("polars").from_pandas(frame)
+    else:
+        source = frame
+    t = rankfold.table(source, "a", "b", weight="w")
+    assert t.counts.to_numpy().tolist() == [[1e19, 5e18], [5e18, 1e19]]
+    assert t.n == 3e19
+    assert t.measures().loc["gamma", "estimate"] == pytest.approx(0.6)
+
+
+def test_whole_counts_stay_int64_only_while_their_total_fits():
+    # numpy int64 holds up to 2**63 - 1: four cells of 2**62 - 1 add up beyond it, so the
+    # table keeps floating totals instead of a wrapped negative n.
+    big = rankfold.table_from_counts(np.full((2, 2), 2**62 - 1, dtype=np.int64))
+    assert big.n == pytest.approx(4.0 * (2**62 - 1)) and big.n > 0
+    small = rankfold.table_from_counts(np.full((2, 2), 2**59, dtype=np.int64))
+    assert small.cells.dtype == np.int64 and small.n == 2**61
 
 
 def test_measures_scale_with_counts_times_ten_to_the_nine():
@@ -328,7 +356,7 @@ def test_measures_scale_with_counts_times_ten_to_the_nine():
     large = large_table.measures()
     # Every measure here is a function of the cell proportions only (common practice).
     np.testing.assert_allclose(large["estimate"], small["estimate"], rtol=1e-10)
-    # Delta-method standard errors shrink as 1/sqrt(n) (Agresti 2010, sec. 7.1.3).
+    # Delta-method standard errors shrink as 1/sqrt(n) (Agresti 2010, ch. 7).
     np.testing.assert_allclose(large["std_error"], small["std_error"] * 10**-4.5, rtol=1e-8)
     null = [k for k in small.index if k not in ("spearman_rho", "cramers_v")]
     np.testing.assert_allclose(large.loc[null, "std_error_null"],

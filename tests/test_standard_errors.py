@@ -62,7 +62,7 @@ TABLES = associated_tables(seed=202, count=8)
 @pytest.mark.parametrize("counts", TABLES, ids=str)
 def test_standard_errors_equal_the_published_closed_forms(counts):
     # Source: the closed forms of Goodman & Kruskal (1972), Brown & Benedetti (1977) and
-    # Agresti (2010, sec. 7.1.3), evaluated here with loop-summed C_ij and D_ij.
+    # Agresti (2010, ch. 7), evaluated here with loop-summed C_ij and D_ij.
     n = counts.astype(float)
     conc, disc = loop_concordance(n)
     d = conc - disc
@@ -110,15 +110,20 @@ def numerical_gradient(func, n: np.ndarray, step: float = 1e-4) -> dict[str, np.
 
 @pytest.mark.parametrize("counts", TABLES, ids=str)
 def test_delta_standard_errors_match_numerical_gradients(counts):
-    # Source: the delta method (Agresti 2010, sec. 16.1 / appendix): Var = sum n g^2 -
-    # (sum n g)^2 / n with g the gradient of the estimate; here g is a central finite
-    # difference of estimates computed from their definitions, independent of the core.
+    # Source: the delta method (Agresti, Categorical Data Analysis, 3rd ed., 2013, sec. 16.1):
+    # Var = sum n g^2 - (sum n g)^2 / n with g the gradient of the estimate; here g is a
+    # central finite difference of estimates computed from their definitions, independent
+    # of the core.
     n = counts.astype(float) + 0.5  # keep every cell away from 0 for the downward step
     grads = numerical_gradient(reference_estimates, n)
-    arrays = ordinal_measure_arrays(n)
+    arrays = ordinal_measure_arrays(n, gradients=True)
     for key in ALL_KEYS:
         fd_se = np.sqrt(delta_variance(n, grads[key], Sampling()))
         assert float(arrays[key]["std_error"]) == pytest.approx(fd_se, rel=1e-6), key
+        # the gradient handed back for the delta method of several measures is the same one
+        scale = np.abs(grads[key]).max()
+        np.testing.assert_allclose(arrays[key]["gradient"], grads[key], rtol=0,
+                                   atol=1e-6 * scale, err_msg=key)
 
 
 @pytest.mark.parametrize("counts", TABLES[:4], ids=str)

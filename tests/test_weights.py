@@ -11,7 +11,7 @@ import pandas as pd
 import pytest
 
 import rankfold
-from rankfold.ordinal_measures import ordinal_measure_arrays
+from rankfold.ordinal_measures import Sampling, ordinal_measure_arrays
 
 ERROR_COLUMNS = ["std_error", "std_error_null"]
 CHECKED = ["gamma", "somers_d_col_given_row", "somers_d_row_given_col", "tau_b", "tau_c",
@@ -130,7 +130,7 @@ def test_kish_effective_size_in_notes(survey):
     t = rankfold.table(survey, "trip", "rating", control="region", weight="w",
                        weight_kind="sampling")
     w = survey["w"]
-    # Kish (1965, Survey Sampling, sec. 11.7): n_eff = (sum w)^2 / sum w^2
+    # Kish (1965, Survey Sampling): n_eff = (sum w)^2 / sum w^2
     kish = w.sum() ** 2 / (w**2).sum()
     assert f"Kish effective n = {kish:,.1f}" in t.measures().loc["gamma", "note"]
     for label, part in survey.groupby("region")["w"]:
@@ -214,3 +214,33 @@ def test_sampling_weight_diagnostics_count_respondents_not_weighted_totals():
     assert any("count records" in w for w in survey.warnings)
     # the expected counts reported stay on the scale of the weighted table
     np.testing.assert_allclose(survey.expected.to_numpy(), plain.expected.to_numpy() * 1000)
+
+
+@pytest.mark.parametrize("steep", [False, True])
+def test_weighted_spearman_null_error_holds_its_level(steep):
+    # Simulation under independence, drawn as a weighted survey arises: 4,000 seeded samples
+    # of 300 records, row and column categories independent, sampling weights rising with
+    # the row category (with noise, or steeply). The z test with the linearised null error
+    # rejects in [4%, 6%] of samples at the 5% level.
+    rng = np.random.default_rng(3 if steep else 8)
+    draws, size, n_rows, n_cols = 4000, 300, 4, 5
+    x = rng.choice(n_rows, p=[0.3, 0.3, 0.2, 0.2], size=(draws, size))
+    y = rng.choice(n_cols, p=[0.1, 0.2, 0.3, 0.25, 0.15], size=(draws, size))
+    w = np.exp(0.8 * x) if steep else (1 + 1.5 * x) * rng.lognormal(0, 0.3, size=x.shape)
+    flat = (x * n_cols + y + (np.arange(draws) * n_rows * n_cols)[:, None]).ravel()
+    shape = (draws, n_rows, n_cols)
+    cells = np.bincount(flat, w.ravel(), draws * n_rows * n_cols).reshape(shape)
+    squared = np.bincount(flat, (w * w).ravel(), draws * n_rows * n_cols).reshape(shape)
+    rho = ordinal_measure_arrays(cells, Sampling(squared, np.full(draws, float(size))))[
+        "spearman_rho"]
+    rejected = np.mean(np.abs(rho["estimate"] / rho["std_error_null"]) > 1.959964)
+    assert 0.04 <= rejected <= 0.06
+
+
+def test_constant_weights_give_the_permutation_error_of_spearman():
+    # Common practice: 1/sqrt(n - 1) is the permutation standard deviation of a correlation;
+    # constant sampling weights must give it exactly.
+    counts = np.array([[5.0, 3, 1], [2, 6, 4], [1, 2, 7]])
+    rho = ordinal_measure_arrays(counts * 2.5, Sampling(counts * 6.25, counts.sum()))
+    assert float(rho["spearman_rho"]["std_error_null"]) == pytest.approx(
+        1 / np.sqrt(counts.sum() - 1), rel=1e-12)
