@@ -460,9 +460,18 @@ class Explorer(widgets.VBox):
         display(HTML(snapshot_html(self._rendered)))
 
     def report(self, path: str = "rankfold-report.html") -> str:
-        """Write a one-file HTML report of the current state that opens with no network; see
-        :func:`rankfold.widgets.report.report_html`. An existing file is never overwritten
-        (``-2``, ``-3``... are added); returns the path written."""
+        """Write a one-file HTML report of the current state that opens with no network.
+
+        Parameters
+        ----------
+        path : str
+            File name; an existing file is never overwritten (``-2``, ``-3``... are added).
+
+        Returns
+        -------
+        str
+            The path written. Contents: :func:`rankfold.widgets.report.report_html`.
+        """
         records = has_records(self._cache.data)
         return str(rendered_report(self._rendered, path, small_sweep(self._rendered), records))
 

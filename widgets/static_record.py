@@ -78,7 +78,19 @@ def chart_svg(chart: alt.TopLevelMixin) -> str:
 
 
 def steps_html(table: OrdinalTable) -> str:
-    """The table's coding steps as an ordered list (one ``describe()`` line each)."""
+    """The table's coding steps as an ordered list.
+
+    Parameters
+    ----------
+    table : OrdinalTable
+        Any table; all of its :attr:`~rankfold.OrdinalTable.steps` are listed, oldest first.
+
+    Returns
+    -------
+    str
+        An ``ol.rankfold-record-steps`` with one ``describe()`` line per step, or a sentence
+        saying there is none.
+    """
     if not table.steps:
         return "<p>No coding steps: the categories as counted.</p>"
     items = "".join(f"<li>{formatting.text(step.describe())}</li>" for step in table.steps)
@@ -86,7 +98,19 @@ def steps_html(table: OrdinalTable) -> str:
 
 
 def counts_html(table: OrdinalTable) -> str:
-    """The table of counts (pooled over a control variable) with row and column totals."""
+    """The table of counts with row and column totals.
+
+    Parameters
+    ----------
+    table : OrdinalTable
+        Any table; a control variable is pooled over (:attr:`~rankfold.OrdinalTable.counts`).
+
+    Returns
+    -------
+    str
+        A ``table.rankfold-record-counts``; counts written by
+        :func:`rankfold.widgets.formatting.amount`.
+    """
     counts = table.counts
     head = "".join(f'<th scope="col">{formatting.text(c)}</th>' for c in counts.columns)
     rows = []
