@@ -55,6 +55,7 @@ def test_report_is_self_contained_and_shows_the_measures(df, merged, tmp_path):
     for caution in ("not causation", "inflates false findings", "Sparse tables", "Weights"):
         assert caution in page
     assert "trip_length: merge [10–20 km, over 20 km]" in page
+    assert "click" not in page.lower()  # a static page asks for no click
     assert f"n = {formatting.amount(merged.n)}" in page
     # the code in the report rebuilds the same table from the frame
     code = html.unescape(re.search(r'<pre class="rankfold-report-code">(.*?)</pre>', page,

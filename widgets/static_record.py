@@ -67,11 +67,17 @@ def chart_svg(chart: alt.TopLevelMixin) -> str:
         The ``<svg>`` element without its ``xmlns`` attributes: an SVG element inside an HTML
         page belongs to the SVG namespace by the HTML parsing rules (WHATWG HTML, "foreign
         elements"), and dropping the namespace strings keeps the page free of any ``http://``
-        text. Only for embedding in HTML, not for a stand-alone ``.svg`` file.
+        text. Only for embedding in HTML, not for a stand-alone ``.svg`` file. A drawn copy
+        cannot be clicked, so a part of the subtitle that asks for a click is left out.
     """
     import vl_convert
 
-    svg = vl_convert.vegalite_to_svg(chart.to_dict())
+    spec = chart.to_dict()
+    title = spec.get("title")
+    if isinstance(title, dict) and isinstance(title.get("subtitle"), str):
+        parts = [p for p in title["subtitle"].split("; ") if not p.startswith("click")]
+        title["subtitle"] = "; ".join(parts)
+    svg = vl_convert.vegalite_to_svg(spec)
     start = svg.index("<svg")
     head_end = svg.index(">", start)
     return _NAMESPACES.sub("", svg[start:head_end]) + svg[head_end:]
