@@ -2,7 +2,8 @@
 
 The computation core: ordered tables, concordance-based measures with standard errors and
 tests, and category merging. It depends on numpy, pandas and scipy only; the notebook explorer
-lives in :mod:`rankfold.widgets` and is imported only when :func:`explore` is first used.
+lives in :mod:`rankfold.widgets` and is imported only when :func:`explore` (or :func:`report`,
+the one-file HTML report) is first used.
 """
 
 from __future__ import annotations
@@ -56,6 +57,7 @@ __all__ = [
     "pair_counts",
     "pair_regions",
     "range_sentence",
+    "report",
     "rule_met",
     "suggest_collapsing",
     "sweep",
@@ -73,6 +75,10 @@ def __getattr__(name: str) -> Any:
         from .widgets import explore
 
         return explore
+    if name == "report":  # draws its charts with altair and vl-convert
+        from .widgets.report import report
+
+        return report
     if name == "charts":  # Altair charts of tables and overviews, also imported on first use
         from .widgets import charts
 

@@ -49,3 +49,23 @@ def associated_tables(seed: int, count: int) -> list[np.ndarray]:
         if (cells.sum(axis=0) > 0).all() and (cells.sum(axis=1) > 0).all():
             tables.append(cells)
     return tables
+
+
+def brute_force_pairs(counts) -> tuple[int, int]:
+    """Concordant and discordant pairs of units, visiting every pair of cells.
+
+    Goodman & Kruskal (1954): a pair is concordant when one unit is higher on both variables,
+    discordant when it is higher on one and lower on the other.
+    """
+    counts = np.asarray(counts)
+    concordant = discordant = 0
+    n_rows, n_cols = counts.shape
+    for i in range(n_rows):
+        for j in range(n_cols):
+            for k in range(i + 1, n_rows):
+                for m in range(n_cols):
+                    if m > j:
+                        concordant += int(counts[i, j] * counts[k, m])
+                    elif m < j:
+                        discordant += int(counts[i, j] * counts[k, m])
+    return concordant, discordant

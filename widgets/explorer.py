@@ -64,13 +64,16 @@ from rankfold.counting import refuse_unknown_keywords
 from . import formatting
 from .category_editor import CategoryEditor, StepsPanel
 from .comparison import ComparisonSection
+from .computation_view import ComputationSection
 from .export import ExportSection, code_snippet, save_chart
 from .heatmap import HeatmapSection
 from .measures_panel import measures_html
 from .pair_view import PairSection
 from .pickers import VariablePickers
 from .render import Rendered, TableCache, render
+from .report import rendered_report, small_sweep
 from .state import Edit, ExplorerState
+from .static_record import SavedRecord, snapshot_html
 from .sweep_view import SweepSection
 from .table_mode import BackgroundCount, has_records, offer_for
 from .within_levels_view import WithinLevelsSection
@@ -90,6 +93,7 @@ SECTIONS: list[tuple[str, Callable[[Callable, Callable], Any]]] = [
     ("Codings", SweepSection),
     ("Export", ExportSection),
     ("Within each level", WithinLevelsSection),
+    ("How it is computed", ComputationSection),
 ]
 
 _STYLE = """<style>
@@ -180,6 +184,7 @@ class Explorer(widgets.VBox):
         self._cache = TableCache(data)
         self._rendered: Rendered = render(state, self._cache)
         self._syncing = False
+        self._record = SavedRecord()  # the static copy of the state kept in saved notebooks
         self._message = widgets.HTML()
         self._message.add_class("rankfold-message")
         propose = self._propose
@@ -264,6 +269,7 @@ class Explorer(widgets.VBox):
             )
             self._stale = set(range(len(self._sections)))
             self._show_sections()
+            self._record.follow(rendered)
         finally:
             self._syncing = False
 
@@ -441,6 +447,33 @@ class Explorer(widgets.VBox):
         if chart is None:
             raise ValueError("There is no pair view yet: choose a cell first (set_view).")
         return str(save_chart(chart, path))
+
+    def _ipython_display_(self) -> None:
+        """Show the widget and, beside it, the static record that saved notebooks keep."""
+        self._record.display(self._repr_mimebundle_(), self._rendered)
+
+    def snapshot(self) -> None:
+        """Put a frozen copy of the current state (steps, table, measures, heatmap) into the
+        cell's output: it stays as it is when the explorer changes."""
+        from IPython.display import HTML, display
+
+        display(HTML(snapshot_html(self._rendered)))
+
+    def report(self, path: str = "rankfold-report.html") -> str:
+        """Write a one-file HTML report of the current state that opens with no network.
+
+        Parameters
+        ----------
+        path : str
+            File name; an existing file is never overwritten (``-2``, ``-3``... are added).
+
+        Returns
+        -------
+        str
+            The path written. Contents: :func:`rankfold.widgets.report.report_html`.
+        """
+        records = has_records(self._cache.data)
+        return str(rendered_report(self._rendered, path, small_sweep(self._rendered), records))
 
 
 def explore(

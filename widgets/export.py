@@ -123,11 +123,15 @@ class ExportSection:
                                  layout=widgets.Layout(width="auto"))
         columns.add_class("rankfold-export-columns")
         columns.on_click(lambda _: self._save_columns())
+        report = widgets.Button(description="report (one HTML file)", layout=columns.layout,
+                                tooltip="Save a self-contained page of the current results")
+        report.add_class("rankfold-export-report")
+        report.on_click(lambda _: self._save_report())
         self._code = widgets.HTML()
         self._code.add_class("rankfold-code")
         self.widget = widgets.VBox([
             widgets.HBox([self._chart, self._stem]),
-            widgets.HBox([*buttons, columns]),
+            widgets.HBox([*buttons, columns, report]),
             widgets.HTML("<p>Files go to the notebook's folder. The code below rebuilds the "
                          "current table and measures from <code>df</code> (your frame) and adds "
                          "the coded columns; <code>explorer.coded_columns()</code> returns them "
@@ -167,3 +171,15 @@ class ExportSection:
             self._notify(f"Could not save the coded columns: {err}", error=True)
             return
         self._notify(f"Saved the coded columns to {path.resolve()}")
+
+    def _save_report(self) -> None:
+        from .report import rendered_report, small_sweep  # report.py imports this module
+
+        records = has_records(self._rendered.source.data)
+        try:
+            written = rendered_report(self._rendered, f"{self._stem.value or 'rankfold'}.html",
+                                      small_sweep(self._rendered), records)
+        except (ValueError, OSError) as err:
+            self._notify(f"Could not save the report: {err}", error=True)
+            return
+        self._notify(f"Saved the report to {written}")

@@ -8,6 +8,7 @@ not used. Without Chromium the browser tests are skipped locally and fail when `
 
 from __future__ import annotations
 
+import json
 import os
 import re
 import secrets
@@ -198,9 +199,10 @@ class LabServer:
     root: Path
     log: Path
     process: subprocess.Popen
+    tree: str = "lab/tree"  # where the front end opens a notebook ("notebooks" in Notebook 7)
 
     def notebook_url(self, name: str) -> str:
-        return f"{self.url}/lab/tree/{name}?token={self.token}"
+        return f"{self.url}/{self.tree}/{name}?token={self.token}"
 
     def log_text(self) -> str:
         return self.log.read_text(errors="replace") if self.log.exists() else "(no log)"
@@ -242,18 +244,16 @@ def _stop(process: subprocess.Popen) -> None:
             process.wait(timeout=10)
 
 
-@pytest.fixture(scope="module")
-def lab_server(
-    tmp_path_factory: pytest.TempPathFactory, chromium_path: Path
-) -> Iterator[LabServer]:
-    """JupyterLab started from this test's Python on 127.0.0.1 with a random port and token, a
-    temporary root directory and private config, settings and runtime directories (started
-    only when there is a browser to use it)."""
-    pytest.importorskip("jupyterlab", reason="JupyterLab is missing: pip install -e '.[test]'")
-    home = tmp_path_factory.mktemp("lab")
+@contextmanager
+def jupyter_server(tmp_path_factory: pytest.TempPathFactory, app: str) -> Iterator[LabServer]:
+    """A Jupyter front end's server (``app`` is ``"lab"`` for JupyterLab or ``"notebook"``
+    for Notebook 7) started from this test's Python on 127.0.0.1 with a random port and token,
+    a temporary root directory and private config, settings and runtime directories."""
+    home = tmp_path_factory.mktemp(app)
     root = home / "notebooks"
     root.mkdir()
-    _write_lab_settings(home / "settings")
+    if app == "lab":  # Notebook 7 has no such plugin and would fail on its settings
+        _write_lab_settings(home / "settings")
     env = {
         **os.environ,
         "JUPYTER_CONFIG_DIR": str(home / "config"),
@@ -266,7 +266,7 @@ def lab_server(
     }
     port, token = _free_port(), secrets.token_hex(16)
     command = [
-        sys.executable, "-m", "jupyter", "lab",
+        sys.executable, "-m", "jupyter", app,
         f"--ServerApp.ip={LOCAL_HOST}",
         f"--ServerApp.port={port}",
         "--ServerApp.port_retries=0",
@@ -274,22 +274,47 @@ def lab_server(
         f"--ServerApp.root_dir={root}",
         "--ServerApp.open_browser=False",
         "--ServerApp.allow_root=True",  # CI runs as root
-        "--LabApp.news_url=None",  # the server itself fetches nothing either
-        "--LabApp.check_for_updates_class=jupyterlab.NeverCheckForUpdate",
-        "--LabApp.extension_manager=readonly",
     ]
+    if app == "lab":
+        command += [
+            "--LabApp.news_url=None",  # the server itself fetches nothing either
+            "--LabApp.check_for_updates_class=jupyterlab.NeverCheckForUpdate",
+            "--LabApp.extension_manager=readonly",
+        ]
     log = home / "server.log"
     with log.open("wb") as log_file:
         process = subprocess.Popen(
             command, cwd=root, env=env, stdout=log_file, stderr=subprocess.STDOUT,
             stdin=subprocess.DEVNULL, start_new_session=True,
         )
-    server = LabServer(f"http://{LOCAL_HOST}:{port}", token, root, log, process)
+    tree = "lab/tree" if app == "lab" else "notebooks"
+    server = LabServer(f"http://{LOCAL_HOST}:{port}", token, root, log, process, tree)
     try:
         _wait_until_serving(server)
         yield server
     finally:
         _stop(process)
+
+
+@pytest.fixture(scope="module")
+def lab_server(
+    tmp_path_factory: pytest.TempPathFactory, chromium_path: Path
+) -> Iterator[LabServer]:
+    """JupyterLab (see :func:`jupyter_server`), started only when there is a browser to use
+    it."""
+    pytest.importorskip("jupyterlab", reason="JupyterLab is missing: pip install -e '.[test]'")
+    with jupyter_server(tmp_path_factory, "lab") as server:
+        yield server
+
+
+@pytest.fixture(scope="module")
+def notebook7_server(
+    tmp_path_factory: pytest.TempPathFactory, chromium_path: Path
+) -> Iterator[LabServer]:
+    """Jupyter Notebook 7 (see :func:`jupyter_server`)."""
+    pytest.importorskip("notebook", reason="Notebook 7 is missing: pip install -e '.[test]'")
+    with jupyter_server(tmp_path_factory, "notebook") as server:
+        yield server
 
 
 # ----------------------------------------------------------------------- driving a notebook
@@ -307,6 +332,7 @@ class NotebookPage:
     """A notebook open in JupyterLab in a guarded page."""
 
     page: Any  # playwright.sync_api.Page
+    status_bar: bool = True  # JupyterLab has one; Notebook 7 does not
 
     def run_all_cells(self) -> None:
         """Run every cell through the Run menu; wait until each code cell has finished (or one
@@ -315,8 +341,10 @@ class NotebookPage:
         self.page.locator(".lm-Menu-itemLabel", has_text=re.compile(r"^Run All Cells$")).click()
         self.page.wait_for_function(_CELLS_FINISHED)
         # Widget updates travel on the same channel before the kernel's "idle" status, so once
-        # the status bar says Idle the page shows what the last cell left.
-        self.page.locator(".jp-StatusBar-TextItem", has_text=KERNEL_IDLE).wait_for()
+        # the status bar says Idle the page shows what the last cell left (without a status
+        # bar, wait for what the page should show instead).
+        if self.status_bar:
+            self.page.locator(".jp-StatusBar-TextItem", has_text=KERNEL_IDLE).wait_for()
         failed = self.page.locator(".jp-OutputArea-output", has_text=TRACEBACK)
         assert failed.count() == 0, "A cell raised:\n" + "\n".join(failed.all_inner_texts())
 
@@ -326,16 +354,46 @@ class NotebookPage:
         self.page.locator("#jp-left-stack").wait_for(state="hidden")
 
 
+def open_in(server: LabServer, page, source: Path) -> NotebookPage:
+    """Copy a notebook into the server's root and open it in ``page``; in JupyterLab, wait
+    until its kernel is idle."""
+    shutil.copy(source, server.root / source.name)
+    page.goto(server.notebook_url(source.name))
+    page.locator(".jp-Notebook .jp-Cell").first.wait_for()
+    lab = server.tree == "lab/tree"
+    if lab:
+        page.locator(".jp-StatusBar-TextItem", has_text=KERNEL_IDLE).wait_for()
+    else:
+        _wait_for_idle_kernel(server, page)
+    return NotebookPage(page, status_bar=lab)
+
+
+def _wait_for_idle_kernel(server: LabServer, page) -> None:
+    """Wait until the server reports the notebook's kernel idle (Notebook 7 has no status
+    bar). Notebook 7 at times asks which kernel to start although the notebook names one; the
+    named one is preselected, so the dialog is accepted."""
+    opener = urllib.request.build_opener(urllib.request.ProxyHandler({}))
+    accept = page.locator(".jp-Dialog .jp-mod-accept")
+    deadline = time.monotonic() + UI_TIMEOUT_MS / 1000
+    while time.monotonic() < deadline:
+        if accept.count() and accept.first.is_visible():
+            accept.first.click()
+        with opener.open(f"{server.url}/api/sessions?token={server.token}", timeout=5) as answer:
+            sessions = json.loads(answer.read())
+        if any(s.get("kernel", {}).get("execution_state") == "idle" for s in sessions):
+            return
+        time.sleep(0.25)  # the polling interval of this readiness check
+    raise RuntimeError(f"No idle kernel within {UI_TIMEOUT_MS / 1000:.0f} s:\n"
+                       f"{server.log_text()}")
+
+
 @pytest.fixture
 def open_notebook(lab_server: LabServer, guarded_page) -> Callable[[Path], NotebookPage]:
-    """Copy a notebook into the server's root, open it in the guarded page and wait until its
-    kernel is idle."""
+    """Open a notebook in JupyterLab in the guarded page (see :func:`open_in`)."""
+    return lambda source: open_in(lab_server, guarded_page, source)
 
-    def open_(source: Path) -> NotebookPage:
-        shutil.copy(source, lab_server.root / source.name)
-        guarded_page.goto(lab_server.notebook_url(source.name))
-        guarded_page.locator(".jp-Notebook .jp-Cell").first.wait_for()
-        guarded_page.locator(".jp-StatusBar-TextItem", has_text=KERNEL_IDLE).wait_for()
-        return NotebookPage(guarded_page)
 
-    return open_
+@pytest.fixture
+def notebook_opener() -> Callable[[LabServer, Any, Path], NotebookPage]:
+    """:func:`open_in`, for tests that open notebooks in several front ends."""
+    return open_in

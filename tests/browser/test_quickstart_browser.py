@@ -21,7 +21,7 @@ import pytest
 from scipy import stats
 
 import rankfold
-from tables_for_tests import expand_table
+from tables_for_tests import brute_force_pairs, expand_table
 
 pytestmark = pytest.mark.browser
 
@@ -36,25 +36,6 @@ COUNT_CELLS = (
 def shown(value: float) -> str:
     """How the measures panel writes an estimate: 4 decimals, a dash when undefined."""
     return DASH if np.isnan(value) else f"{value:.4f}"
-
-
-def brute_force_pairs(counts: np.ndarray) -> tuple[int, int]:
-    """Concordant and discordant pairs of units, visiting every pair of cells.
-
-    Goodman & Kruskal (1954): a pair is concordant when one unit is higher on both variables,
-    discordant when it is higher on one and lower on the other.
-    """
-    concordant = discordant = 0
-    n_rows, n_cols = counts.shape
-    for i in range(n_rows):
-        for j in range(n_cols):
-            for k in range(i + 1, n_rows):
-                for m in range(n_cols):
-                    if m > j:
-                        concordant += int(counts[i, j] * counts[k, m])
-                    elif m < j:
-                        discordant += int(counts[i, j] * counts[k, m])
-    return concordant, discordant
 
 
 def heatmap_counts(explorer, row_name: str, col_name: str) -> pd.DataFrame:
