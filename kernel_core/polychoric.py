@@ -37,6 +37,11 @@ _TOLERANCE = 1e-12
 _NUDGE = 1e-13
 
 TOO_FEW = "needs at least two non-empty categories on each variable"
+#: Smallest share of the units a non-empty cell may hold: a cell probability is a difference of
+#: bivariate normal probabilities near 1, which keeps about 16 - 10 = 6 digits at 1e-10.
+SMALLEST_SHARE = 1e-10
+TOO_SMALL = ("a non-empty cell holds under 1e-10 of the units: the latent normal's cell "
+             "probabilities cannot be computed to enough digits")
 PERFECT = (
     "the categories are perfectly ordered ({which} pairs of units): the estimate is at "
     "{bound} and has no standard error"
@@ -428,6 +433,10 @@ def polychoric_arrays(
     reason = np.full(size, "", dtype=object)
     reason[(P == 0) & (Q > 0)] = PERFECT.format(which="no concordant", bound="-1")
     reason[(Q == 0) & (P > 0)] = PERFECT.format(which="no discordant", bound="1")
+    totals = flat.sum(axis=(-2, -1))[:, None, None]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        tiny = ((flat > 0) & (flat < SMALLEST_SHARE * totals)).any(axis=(-2, -1))
+    reason[tiny] = TOO_SMALL
     reason[(busy_r < 2) | (busy_c < 2)] = TOO_FEW
     guess = (_starting_values(flat, conc, disc) if start is None
              else np.broadcast_to(np.asarray(start, float), batch).reshape(-1))

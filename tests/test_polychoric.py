@@ -237,3 +237,15 @@ def test_bad_input_is_refused():
         polychoric(np.ones((2, 2, 2)))
     with pytest.raises(ValueError, match="non-negative"):
         polychoric(np.array([[1.0, -1], [2, 3]]))
+
+
+def test_cells_too_small_to_compute_give_nan_with_a_reason_and_no_warning():
+    # A cell holding 1e-15 of the units needs bivariate normal probabilities to ~15 digits,
+    # beyond double precision (about 16 digits, common practice): no number rather than a
+    # wrong one.
+    import warnings
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        found = polychoric(np.array([[1e15, 1.0], [1.0, 1.0]]))
+    assert np.isnan(found.estimate) and "enough digits" in found.note
