@@ -21,7 +21,10 @@ from .diagnostics import Diagnostics, diagnose
 from .independence import PermutationResult, permutation_test, tests_frame
 from .measure_table import measures_frame
 from .ordinal_measures import Sampling
-from .steps import ExcludeStep, MergeStep, OrderStep, Step, default_merge_label, label_list
+from .non_substantive import flagged_labels
+from .steps import (
+    ExcludeStep, MergeStep, OrderStep, Step, collected_members, default_merge_label, label_list,
+)
 
 __all__ = ["OrdinalTable"]
 
@@ -87,6 +90,9 @@ class OrdinalTable:
         The control variable and its categories (a single unnamed level when there is none).
     weight, weight_kind : str or None
         The weight column and whether its weights are ``"frequency"`` or ``"sampling"``.
+    non_substantive_extra : tuple or None
+        Labels flagged as non-substantive besides the common phrasings (``non_substantive=``
+        of :func:`rankfold.table`); None turns the check off.
     """
 
     cells: np.ndarray  # (K, I, J) counts or sums of weights
@@ -105,6 +111,7 @@ class OrdinalTable:
     records: np.ndarray | None = None  # (K, I, J) data rows per cell when weight_kind == "sampling"
     origin: Origin = field(default_factory=lambda: Origin("counts"))
     initial_steps: int = 0
+    non_substantive_extra: tuple | None = ()
 
     def __post_init__(self) -> None:
         for name in ("cells", "squared_weights", "records"):
@@ -134,6 +141,36 @@ class OrdinalTable:
     def shape(self) -> tuple[int, int]:
         """Number of row and column categories."""
         return len(self.row_labels), len(self.col_labels)
+
+    @property
+    def non_substantive(self) -> dict[str, list]:
+        """Categories that look like answers off the scale ("don't know", "no answer", ...).
+
+        Returns
+        -------
+        dict
+            ``{"rows": [...], "cols": [...]}``: labels of each variable that are, or (after a
+            merge) cover, one of :data:`rankfold.non_substantive.NON_SUBSTANTIVE_PHRASES`
+            (compared case-insensitively) or a label given in ``non_substantive=``. Counted
+            as a position on the scale they distort every ordinal measure; leave them out
+            with :meth:`exclude`. Nothing is excluded automatically.
+        """
+        return {
+            axis: flagged_labels(labels, collected_members(self.steps, name),
+                                 self.non_substantive_extra)
+            for axis, labels, name in (("rows", self.row_labels, self.row_name),
+                                       ("cols", self.col_labels, self.col_name))
+        }
+
+    def _non_substantive_note(self) -> str:
+        flagged = self.non_substantive
+        named = [f"{name!r}: {', '.join(map(str, flagged[axis]))}"
+                 for axis, name in (("rows", self.row_name), ("cols", self.col_name))
+                 if flagged[axis]]
+        if not named:
+            return ""
+        return ("counts answers that look off the scale as positions on it ("
+                + "; ".join(named) + "); leave them out with exclude() unless they belong there")
 
     def _pooled(self) -> np.ndarray:
         return self.cells.sum(axis=0)
@@ -191,7 +228,8 @@ class OrdinalTable:
         ----------
         Agresti, A. (2010). Analysis of Ordinal Categorical Data, 2nd ed., Wiley, ch. 7.
         """
-        return measures_frame(self._pooled(), sampling=self._sampling(), confidence=confidence)
+        return measures_frame(self._pooled(), sampling=self._sampling(), confidence=confidence,
+                              extra_note=self._non_substantive_note())
 
     def tests(self, scores: str | Sequence[Sequence[float]] | None = None) -> pd.DataFrame:
         """Tests of independence: Pearson X², likelihood-ratio G², linear trend M² = (n − 1) r².
@@ -637,8 +675,12 @@ class OrdinalTable:
             else ""
         )
         weight = f", weighted by {self.weight!r} ({self.weight_kind})" if self.weight else ""
+        n = self.n
+        total = f"n={n}" if isinstance(n, int) else f"weighted total={n:,.1f}"
+        if self.records is not None:
+            total += f", respondents={int(self.records.sum()):,}"
         return (
             f"<OrdinalTable {self.row_name!r} ({len(self.row_labels)}) x {self.col_name!r} "
-            f"({len(self.col_labels)}), n={self.n}{control}{weight}, {len(self.steps)} steps>\n"
+            f"({len(self.col_labels)}), {total}{control}{weight}, {len(self.steps)} steps>\n"
             f"{self.counts!r}"
         )
