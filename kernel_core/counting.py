@@ -57,7 +57,8 @@ def order_needed(name: str, found: Sequence[Hashable]) -> str:
     values = sorted((_python_scalar(x) for x in found), key=str)
     shown = values[:12]
     more = f" and {len(values) - 12} more" if len(values) > 12 else ""
-    seen = f" Its values, sorted alphabetically (not in any real order): {shown}{more}." if shown else ""
+    seen = (f" Its values, sorted alphabetically (not in any real order): {shown}{more}."
+            if shown else "")
     return (
         f"Column {name!r} has no order rankfold can trust.{seen} Tell it the order with "
         f"order={{{name!r}: [lowest, ..., highest]}}, listing every category from lowest to "

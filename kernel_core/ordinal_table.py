@@ -20,10 +20,16 @@ from .control_variable import (
 from .diagnostics import Diagnostics, diagnose
 from .independence import PermutationResult, permutation_test, tests_frame
 from .measure_table import measures_frame
-from .ordinal_measures import Sampling
 from .non_substantive import flagged_labels
+from .ordinal_measures import Sampling
 from .steps import (
-    ExcludeStep, MergeStep, OrderStep, Step, collected_members, default_merge_label, label_list,
+    ExcludeStep,
+    MergeStep,
+    OrderStep,
+    Step,
+    collected_members,
+    default_merge_label,
+    label_list,
 )
 
 __all__ = ["OrdinalTable"]

@@ -253,7 +253,8 @@ class StepsPanel:
         steps = table.steps[table.initial_steps:]
         while len(self._lines) < len(steps):
             self._lines.append(self._line(len(self._lines)))
-        for (text, remove, _), step, k in zip(self._lines, steps, range(len(steps))):
+        for k, step in enumerate(steps):
+            text, remove, _ = self._lines[k]
             text.value = f"{k + 1}. {formatting.text(step.describe())}"
             remove.tooltip = f"Take back step {k + 1} only; the others are replayed"
         self._list.children = ([box for _, _, box in self._lines[:len(steps)]] if steps

@@ -6,7 +6,8 @@ import html
 import math
 from collections.abc import Hashable, Sequence
 
-__all__ = ["amount", "sample_size", "estimate", "interval", "p_value", "text", "signed_amount", "shared_note"]
+__all__ = ["amount", "sample_size", "estimate", "interval", "p_value", "text", "signed_amount",
+           "shared_note"]
 
 DASH = "–"
 

@@ -196,7 +196,7 @@ class ExplorerState:
         target = old[position]
         edits = (*old[:position], *(() if edit is None else (edit,)), *old[position + 1:])
         table = collected
-        for k, later in enumerate(edits):
+        for later in edits:
             try:
                 table = later.apply(table)
             except ValueError as err:
