@@ -255,7 +255,8 @@ class StepsPanel:
             self._lines.append(self._line(len(self._lines)))
         for k, step in enumerate(steps):
             text, remove, _ = self._lines[k]
-            text.value = f"{k + 1}. {formatting.text(step.describe())}"
+            text.value = (f"<span class='rankfold-step-text'>{k + 1}. "
+                          f"{formatting.text(step.describe())}</span>")
             remove.tooltip = f"Take back step {k + 1} only; the others are replayed"
         self._list.children = ([box for _, _, box in self._lines[:len(steps)]] if steps
                                else [self._none])
