@@ -90,8 +90,8 @@ def test_pickers_list_the_source_columns_from_their_types(parquet_path):
     assert "weight" in weights and "gym" not in weights
 
 
-def test_choosing_a_pair_counts_in_the_background(visits, parquet_path, monkeypatch):
-    ex = rankfold.explore(parquet_path, "sessions_per_month", "route_grade")
+def hold_counts(monkeypatch) -> tuple[threading.Event, threading.Event]:
+    """Make every count wait for ``release``; ``started`` is set when one begins."""
     release, started = threading.Event(), threading.Event()
     count = rankfold.sources.tally_source
 
@@ -101,6 +101,12 @@ def test_choosing_a_pair_counts_in_the_background(visits, parquet_path, monkeypa
         return count(*args, **kwargs)
 
     monkeypatch.setattr(rankfold.sources, "tally_source", held_count)
+    return release, started
+
+
+def test_choosing_a_pair_counts_in_the_background(visits, parquet_path, monkeypatch):
+    ex = rankfold.explore(parquet_path, "sessions_per_month", "route_grade")
+    release, started = hold_counts(monkeypatch)
     ex._pickers._row.value = "years_member"  # as a click in the row picker
     # Control came back while the count is held: the notebook is free for other cells.
     assert started.wait(20)
@@ -162,15 +168,7 @@ def test_unknown_data_is_refused():
 
 def test_an_edit_made_while_a_count_runs_is_kept(visits, parquet_path, monkeypatch):
     ex = rankfold.explore(parquet_path, "sessions_per_month", "route_grade")
-    release, started = threading.Event(), threading.Event()
-    count = rankfold.sources.tally_source
-
-    def held_count(*args, **kwargs):
-        started.set()
-        assert release.wait(20), "the test never released the count"
-        return count(*args, **kwargs)
-
-    monkeypatch.setattr(rankfold.sources, "tally_source", held_count)
+    release, started = hold_counts(monkeypatch)
     ex._pickers._row.value = "years_member"  # counted in the background ...
     assert started.wait(20)
     ex.merge("cols", [[3, 4]])  # ... while the reader merges on the variable that stays

@@ -80,11 +80,6 @@ def assert_same_table(ex, expected: rankfold.OrdinalTable) -> None:
 
 
 @pytest.fixture
-def df() -> pd.DataFrame:
-    return rankfold.demo.transit_survey()
-
-
-@pytest.fixture
 def ex(df):
     return rankfold.explore(df, ROW, COL)
 

@@ -26,11 +26,6 @@ from rankfold.widgets import explorer as explorer_module
 
 
 @pytest.fixture
-def df() -> pd.DataFrame:
-    return rankfold.demo.transit_survey()
-
-
-@pytest.fixture
 def ex(df):
     return rankfold.explore(df, ROW, COL)
 
