@@ -21,15 +21,18 @@ import numpy as np
 import pandas as pd
 
 from .control_variable import partial_gamma_arrays
+from .cumulative_logit import cumulative_logit_arrays
 from .diagnostics import sparse_cell_figures
 from .measure_table import measure_label
 from .ordinal_measures import ORDINAL_MEASURES, Sampling, ordinal_measure_arrays
 from .ordinal_table import OrdinalTable
+from .polychoric import polychoric_arrays
 from .steps import MergeStep, merged_label
 
 __all__ = [
     "DEFAULT_MAX_SCHEMES",
     "DEFAULT_SWEEP_MEASURES",
+    "LATENT_MEASURES",
     "RULES",
     "CollapsingSuggestion",
     "apply_coding",
@@ -55,6 +58,9 @@ DEFAULT_MAX_SCHEMES = 300_000
 DEFAULT_CHUNK_SIZE = 10_000
 AXES_CHOICES = ("both", "rows", "cols")
 PARTIAL = "partial_gamma"
+#: Measures of an assumed continuous scale underneath, which merging neighbouring categories
+#: should leave unchanged under their models (opt in: they cost iterations per coding).
+LATENT_MEASURES = ("polychoric", "cumulative_logit")
 
 #: Sparse-cell rules :func:`suggest_collapsing` can apply, with their default thresholds.
 RULES = {
@@ -387,7 +393,9 @@ def _check_measures(table: OrdinalTable, measures: Sequence[str]) -> tuple[str, 
     if isinstance(measures, str):
         measures = (measures,)
     measures = tuple(measures)
-    known = (*ORDINAL_MEASURES, PARTIAL) if table.control_name is not None else ORDINAL_MEASURES
+    known = (*ORDINAL_MEASURES, *LATENT_MEASURES)
+    if table.control_name is not None:
+        known = (*known, PARTIAL)
     unknown = [m for m in measures if m not in known]
     if unknown or not measures or len(set(measures)) != len(measures):
         controlled = (
@@ -437,6 +445,10 @@ class _Columns:
         found = ordinal_measure_arrays(counts, pooled)
         if PARTIAL in self.measures:
             found[PARTIAL] = partial_gamma_arrays(batch.cells, controlled)
+        if "polychoric" in self.measures:
+            found["polychoric"] = polychoric_arrays(counts, pooled)
+        if "cumulative_logit" in self.measures:
+            found["cumulative_logit"] = cumulative_logit_arrays(counts, sampling=pooled)
         # As in measures(): with one non-empty category on either variable, every measure is
         # undefined (P - Q is 0 by construction, not by the data).
         busy = np.minimum((counts.sum(axis=-1) > 0).sum(axis=-1),
@@ -526,8 +538,14 @@ def sweep(
     min_categories : int
         Fewest categories a recoded axis may keep (at least 2).
     measures : sequence of str
-        Keys from :data:`rankfold.ordinal_measures.ORDINAL_MEASURES` and, for a controlled
-        table, ``"partial_gamma"`` (within-level pairs pooled, Davis 1967, JASA 62:189; see
+        Keys from :data:`rankfold.ordinal_measures.ORDINAL_MEASURES`; ``"polychoric"``
+        (:func:`rankfold.polychoric.polychoric_arrays`) and ``"cumulative_logit"`` (the
+        proportional-odds slope of the column variable on the row positions,
+        :func:`rankfold.cumulative_logit.cumulative_logit_arrays`), which assume a continuous
+        scale underneath and should not move when neighbouring categories merge (the slope
+        only for merges of the column variable: merging rows changes what one step means);
+        and, for a table with a control variable, ``"partial_gamma"`` (within-level pairs
+        pooled, Davis 1967, JASA 62:189; see
         :func:`rankfold.control_variable.partial_gamma_arrays`).
     max_schemes : int or None
         Refuse (with a ValueError saying what to do instead) when there are more codings than
@@ -622,7 +640,7 @@ def sweep_ranges(
         estimates (quartiles by linear interpolation, numpy's default; NaN when none is
         defined).
     """
-    known = [m for m in (*ORDINAL_MEASURES, PARTIAL) if m in frame.columns]
+    known = [m for m in (*ORDINAL_MEASURES, *LATENT_MEASURES, PARTIAL) if m in frame.columns]
     measures = known if measures is None else list(measures)
     unknown = [m for m in measures if m not in known]
     if unknown or not measures:

@@ -241,7 +241,15 @@ def _newton(n: np.ndarray, x: np.ndarray, design: _Design,
 def _inverse(hessian: np.ndarray, used: np.ndarray) -> np.ndarray:
     """``-H^-1`` (the inverse observed information), NaN for unused slots."""
     with np.errstate(invalid="ignore"):
-        cov = -np.linalg.inv(hessian)
+        try:
+            cov = -np.linalg.inv(hessian)
+        except np.linalg.LinAlgError:  # a singular fit (no information): NaN for that table
+            cov = np.full(np.shape(hessian), np.nan)
+            for b, one in enumerate(hessian):
+                try:
+                    cov[b] = -np.linalg.inv(one)
+                except np.linalg.LinAlgError:
+                    pass
     return np.where(used[:, :, None] & used[:, None, :], cov, np.nan)
 
 

@@ -26,6 +26,7 @@ TEST_LABELS = {
     "trend_m2": "linear trend M² = (n − 1) r²",
     "cmh_correlation": "Cochran–Mantel–Haenszel correlation",
     "gamma_homogeneity": "same gamma in every level",
+    "latent_normal_fit": "fit of the latent normal (G²)",
 }
 
 

@@ -9,6 +9,7 @@ import pandas as pd
 from scipy import special
 
 from .ordinal_measures import ORDINAL_MEASURES, Sampling, delta_variance, ordinal_measure_arrays
+from .polychoric import polychoric
 from .two_by_two import two_by_two_measures
 
 __all__ = [
@@ -50,6 +51,8 @@ def measure_label(key: str, row_name: str, col_name: str) -> str:
         "tau_b": "Kendall's tau-b",
         "tau_c": "Stuart's tau-c",
         "spearman_rho": "Spearman's rho (midranks)",
+        "polychoric": "polychoric correlation (latent normal)",
+        "cumulative_logit": f"cumulative-logit slope ({col_name} on {row_name} steps)",
         "cramers_v": "Cramér's V (nominal)",
         "odds_ratio": "odds ratio",
         "yules_q": "Yule's Q",
@@ -163,6 +166,13 @@ def measures_frame(
         if note:
             est = se = se0 = np.nan
         records.append((key, est, se, se0, note, (-1.0, 1.0), False))
+    if reasons["cramers_v"]:  # the table itself leaves nothing to estimate
+        records.append(("polychoric", np.nan, np.nan, np.nan, reasons["cramers_v"], (-1.0, 1.0),
+                        False))
+    else:
+        latent = polychoric(counts, sampling)
+        records.append(("polychoric", latent.estimate, latent.std_error, latent.std_error_null,
+                        latent.note, (-1.0, 1.0), False))
     v_note = reasons["cramers_v"]
     chi_square_p = np.nan  # Pearson's test, reported on the Cramér's V row
     if v_note:

@@ -17,11 +17,13 @@ from .control_variable import (
     partial_measures,
     single_level,
 )
+from .cumulative_logit import cumulative_logit_frame
 from .diagnostics import Diagnostics, diagnose
 from .independence import PermutationResult, permutation_test, tests_frame
 from .measure_table import measures_frame
 from .non_substantive import flagged_labels
 from .ordinal_measures import Sampling
+from .polychoric import polychoric
 from .steps import (
     ExcludeStep,
     MergeStep,
@@ -252,12 +254,22 @@ class OrdinalTable:
             variable). A table with a control variable adds ``cmh_correlation`` (association
             within levels, same
             scores, midranks taken within each level) and ``gamma_homogeneity``, see
-            :func:`rankfold.control_variable.control_tests`.
+            :func:`rankfold.control_variable.control_tests`. The row ``latent_normal_fit`` is
+            the G² test of the latent bivariate normal behind the polychoric correlation, on
+            ``IJ - I - J`` degrees of freedom (Olsson 1979, Psychometrika 44:443; see
+            :func:`rankfold.polychoric.polychoric`).
         """
         frame = tests_frame(self._pooled(), scores, sampling=self._sampling())
-        if self.control_name is None:
-            return frame
-        return pd.concat([frame, control_tests(self, scores)])
+        latent = polychoric(self._pooled(), self._sampling())
+        fit = pd.DataFrame(
+            {"statistic": latent.fit_statistic, "df": latent.fit_df,
+             "p_value": latent.fit_p_value, "note": latent.fit_note},
+            index=pd.Index(["latent_normal_fit"], name=frame.index.name),
+        )
+        parts = [frame, fit]
+        if self.control_name is not None:
+            parts.append(control_tests(self, scores))
+        return pd.concat(parts)
 
     def permutation_test(
         self,
@@ -385,6 +397,55 @@ class OrdinalTable:
         189-193.
         """
         return partial_measures(self, confidence)
+
+    def cumulative_logit(
+        self,
+        response: str = "cols",
+        scores: str | Sequence[float] | None = None,
+        confidence: float = 0.95,
+    ) -> pd.DataFrame:
+        """The proportional-odds (cumulative-logit) model of one variable on the other.
+
+        Fits ``logit P(Y <= j | x) = alpha_j - beta x`` (McCullagh 1980, JRSS B 42:109), with
+        ``Y`` the ``response`` variable and ``x`` the other variable's scores; with a control
+        variable, each level has its own cut-points ``alpha_kj`` and the slope is common.
+
+        Parameters
+        ----------
+        response : {'cols', 'rows'}
+            The variable whose cumulative odds are modelled.
+        scores : {'positions', 'midranks'} or sequence of float, optional
+            Scores of the other variable: positions 1, 2, ... (default), midranks, or one
+            increasing number per category. Merging categories of the scored variable
+            changes what one step of ``x`` means, so the slope is only comparable across
+            codings that keep that variable's categories.
+        confidence : float
+            Confidence level of the Wald intervals.
+
+        Returns
+        -------
+        pandas.DataFrame
+            Row ``slope`` (beta, the log cumulative odds ratio per step of ``x``, with its
+            standard error, interval, z and p), then one row per cut-point; ``frame.attrs``
+            holds the deviance and the likelihood-ratio test of proportional odds against
+            separate slopes per cut-point. See
+            :func:`rankfold.cumulative_logit.cumulative_logit_frame`.
+
+        References
+        ----------
+        McCullagh, P. (1980). Regression models for ordinal data. JRSS B 42, 109-142.
+        """
+        controlled = self.control_name is not None
+        sampling = Sampling()
+        if self.squared_weights is not None:
+            squared = self.squared_weights if controlled else self.squared_weights.sum(axis=0)
+            sampling = Sampling(squared, float(np.asarray(self.records).sum()))
+        return cumulative_logit_frame(
+            self.cells if controlled else self._pooled(), response=response, scores=scores,
+            sampling=sampling, confidence=confidence, row_labels=self.row_labels,
+            col_labels=self.col_labels,
+            control_labels=self.control_labels if controlled else None,
+        )
 
     # --------------------------------------------------------------------- coding steps
     def _labels(self, axis: int) -> tuple:

@@ -305,15 +305,10 @@ def _fit_full_margins(n: np.ndarray, sampling: Sampling, start: np.ndarray) -> d
     row_cum = np.cumsum(rows, axis=-1)[..., :-1] / total[..., None]
     col_cum = np.cumsum(cols, axis=-1)[..., :-1] / total[..., None]
     rho, info, model = _newton(n, a, b, start, row_cum, col_cum)
-    g0, info0 = _null_gradient(n, a, b)
-    if sampling.squared is None:
-        with np.errstate(divide="ignore", invalid="ignore"):
-            se = np.where(info > 0, 1 / np.sqrt(info), np.nan)
-            se0 = 1 / np.sqrt(info0)
-    else:
-        se = np.sqrt(delta_variance(n, _linearised_gradient(n, a, b, rho, info, model),
-                                    sampling))
-        se0 = np.sqrt(delta_variance(n, g0, sampling))
+    g0, _ = _null_gradient(n, a, b)
+    # one variance rule for counts and sampling weights alike (see polychoric_arrays)
+    se = np.sqrt(delta_variance(n, _linearised_gradient(n, a, b, rho, info, model), sampling))
+    se0 = np.sqrt(delta_variance(n, g0, sampling))
     fitted = total[..., None, None] * model.pi
     with np.errstate(divide="ignore", invalid="ignore"):
         g2 = 2 * np.where(n > 0, n * np.log(n / fitted), 0.0).sum(axis=(-2, -1))
@@ -379,20 +374,22 @@ def polychoric_arrays(
     batched Newton iteration on ``l'(rho) = sum n_ij phi2'_ij / pi_ij`` with
     ``d Phi_2 / d rho = phi_2`` (Plackett 1954), started at ``sin(pi tau_b / 2)``.
 
-    *Standard errors.* For counts (and frequency weights) ``std_error = 1/sqrt(-l''(rho_hat))``,
-    the observed information with the thresholds treated as known: Olsson's two-step standard
-    error. It ignores the sampling error of the thresholds; Olsson (1979) reports this makes
-    little difference, and the simulation in ``tests/test_polychoric.py`` measures it. With
-    sampling weights the standard error is linearised: ``rho_hat`` solves
-    ``U(rho, a(n), b(n); n) = 0``, whose derivative in each cell total follows from the
-    implicit function theorem *including* the thresholds' dependence on the margins, and the
-    variance is :func:`rankfold.ordinal_measures.delta_variance` of that gradient (Woodruff
-    1971; Binder 1983, Int. Stat. Rev. 51:279).
+    *Standard errors* are linearised, for counts and sampling weights alike: ``rho_hat``
+    solves ``U(rho, a(n), b(n); n) = 0``, whose derivative in each cell total follows from the
+    implicit function theorem *including* the thresholds' dependence on the margins,
+    ``d rho/d n_kl = (w_kl + sum_r dU/da_r da_r/dn_kl + sum_s dU/db_s db_s/dn_kl) / (-l'')``
+    with ``w_kl = pi'_kl / pi_kl``, and the variance is
+    :func:`rankfold.ordinal_measures.delta_variance` of that gradient (Woodruff 1971; Binder
+    1983, Int. Stat. Rev. 51:279), the library's one variance rule. Olsson's (1979) two-step
+    standard error ``1/sqrt(-l'')`` treats the thresholds as known; it is the first term
+    alone, and in the simulation of ``tests/test_polychoric.py`` (rho = 0.5, n = 800) it was
+    about 6% below the spread of the estimates, the linearised one about 1%.
 
-    *Test of rho = 0*: ``z = rho_hat / std_error_null`` with the standard error at ``rho = 0``,
-    ``1/sqrt(n sum p_i+ u_i^2 sum p_+j v_j^2)`` with the normal scores ``u_i``, ``v_j`` (the
-    inverse information at 0, where the thresholds do not matter); with sampling weights the
-    linearised variance of the score at 0 over that information.
+    *Test of rho = 0*: a Wald-type ``z = rho_hat / std_error_null`` (the library's convention
+    for every measure) with the standard error at ``rho = 0``: the linearised variance of
+    ``U(0) / I(0)``, the score at 0 over the information there, whose gradient is
+    ``u_k v_l / I(0)`` with the normal scores ``u_i``, ``v_j``; the threshold terms vanish at
+    ``rho = 0``. Under independence it is ``1/sqrt(I(0))``.
 
     *Fit of the latent normal*: ``G^2 = 2 sum n_ij log(n_ij / (n pi_ij))`` on ``IJ - I - J``
     degrees of freedom (``IJ - 1`` cells less ``I - 1 + J - 1`` thresholds and ``rho``; the

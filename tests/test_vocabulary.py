@@ -35,9 +35,11 @@ def test_unknown_keywords_still_raise_the_usual_type_error(riders):
 
 def test_tests_use_the_textbook_keys_and_none_of_the_old_ones(riders):
     plain = rankfold.table(riders, "trip_length", "service_rating").tests()
-    assert list(plain.index) == ["pearson_x2", "likelihood_ratio_g2", "trend_m2"]
+    assert list(plain.index) == ["pearson_x2", "likelihood_ratio_g2", "trend_m2",
+                                 "latent_normal_fit"]
     controlled = rankfold.table(riders, "trip_length", "service_rating", control="age_band").tests()
-    assert list(controlled.index) == [*TEST_KEYS, "cmh_correlation", "gamma_homogeneity"]
+    assert list(controlled.index) == [*TEST_KEYS, "latent_normal_fit", "cmh_correlation",
+                                      "gamma_homogeneity"]
     old = {"pearson_chi_square", "likelihood_ratio", "linear_by_linear"}
     assert not old & set(controlled.index)
 

@@ -19,6 +19,29 @@ CAUTIONS = (
     "report every coding you tried.",
 )
 _NOMINAL = ("cramers_v",)
+_LATENT = ("polychoric",)
+LATENT_CAUTION = (
+    "These two assume the categories cut a continuous scale underneath (normal for the "
+    "polychoric correlation, logistic for the slope). If that holds, merging neighbouring "
+    "categories should not move them, while gamma and its relatives do move."
+)
+
+
+def _rejected(p_value: float, what: str) -> str:
+    """A plain note when a model check rejects at the 5% level (common practice)."""
+    if p_value < 0.05:
+        shown = formatting.p_value(p_value)
+        return f"{what} (p {shown if shown.startswith('<') else '= ' + shown}): read with care"
+    return ""
+
+
+def _model_checks(tests: pd.DataFrame, slope: pd.DataFrame) -> dict[str, str]:
+    """A note for the polychoric row and the slope row when their model check rejects."""
+    fit_p = tests.loc["latent_normal_fit", "p_value"] if "latent_normal_fit" in tests.index \
+        else float("nan")
+    odds_p = slope.attrs.get("proportional_odds_p_value", float("nan"))
+    return {"polychoric": _rejected(fit_p, "the latent normal model does not fit"),
+            "cumulative_logit": _rejected(odds_p, "the proportional-odds check rejects")}
 
 
 def _measure_row(key: str, record: pd.Series, label: str, note: str) -> str:
@@ -65,10 +88,14 @@ def measures_html(
         reason in the note column). A note part every measure shares (such as the sampling
         weights caution) is written once, as the first ``div.rankfold-warning`` below the table.
     """
-    ordinal = [k for k in measures.index if k not in _NOMINAL]
+    ordinal = [k for k in measures.index if k not in (*_NOMINAL, *_LATENT)]
+    latent = [k for k in measures.index if k in _LATENT]
     nominal = [k for k in measures.index if k in _NOMINAL]
-    shared, own = formatting.shared_note(list(measures["note"]))
-    notes = dict(zip(measures.index, own, strict=True))
+    slope = table.cumulative_logit()
+    shared, own = formatting.shared_note([*measures["note"], slope.loc["slope", "note"]])
+    notes = dict(zip([*measures.index, "cumulative_logit"], own, strict=True))
+    for key, check in _model_checks(tests, slope).items():
+        notes[key] = "; ".join(x for x in (notes[key], check) if x)
 
     def rows(keys: list[str]) -> str:
         return "".join(
@@ -109,6 +136,12 @@ def measures_html(
         '<table class="rankfold-measures"><thead><tr><th>measure</th><th>estimate</th>'
         f"<th>{confidence:.0%} interval</th><th>p</th><th>note</th></tr></thead><tbody>"
         + rows(ordinal)
+        + '<tr class="rankfold-group"><td colspan="5">assuming a continuous scale underneath'
+        f' <span class="rankfold-hint">({formatting.text(LATENT_CAUTION)})</span></td></tr>'
+        + rows(latent)
+        + _measure_row("cumulative_logit", slope.loc["slope"],
+                       measure_label("cumulative_logit", table.row_name, table.col_name),
+                       notes["cumulative_logit"])
         + '<tr class="rankfold-group"><td colspan="5">for contrast, ignoring the order</td></tr>'
         + rows(nominal) + chi_row
         + "</tbody></table>" + warning_html

@@ -23,6 +23,7 @@ from rankfold import OrdinalTable, measure_label
 from rankfold.collapsing import (
     DEFAULT_MAX_SCHEMES,
     DEFAULT_SWEEP_MEASURES,
+    LATENT_MEASURES,
     CollapsingSuggestion,
     coding_groups,
     coding_of,
@@ -133,13 +134,15 @@ def swept_codings(table: OrdinalTable, kept: tuple = (),
     -------
     SweptCodings
     """
-    measures = DEFAULT_SWEEP_MEASURES + (("partial_gamma",) if table.control_name else ())
+    measures = (*DEFAULT_SWEEP_MEASURES, *LATENT_MEASURES,
+                *(("partial_gamma",) if table.control_name else ()))
     frame = rankfold.sweep(table, measures=measures, progress=progress)
     return SweptCodings(table, kept, frame, rankfold.suggest_collapsing(table))
 
 
 def _measures_in(frame: pd.DataFrame) -> list[str]:
-    return [m for m in (*DEFAULT_SWEEP_MEASURES, "partial_gamma") if m in frame.columns]
+    return [m for m in (*DEFAULT_SWEEP_MEASURES, *LATENT_MEASURES, "partial_gamma")
+            if m in frame.columns]
 
 
 def _strip_offsets(categories: np.ndarray, meets: np.ndarray) -> np.ndarray:
@@ -335,6 +338,13 @@ def summary_html(swept: SweptCodings, current: tuple[int, int] | None) -> str:
         notes.append("Measures and the rule use the table pooled over the control variable's "
                      "levels; partial gamma "
                      "compares units only within a level.")
+    if "cumulative_logit" in frame.columns:
+        notes.append("The polychoric correlation and the cumulative-logit slope assume a "
+                     "continuous scale underneath; under that assumption merging neighbouring "
+                     "categories leaves them unchanged, so a wide range for gamma beside a "
+                     "narrow one for them points to ties, not to a changed association. The "
+                     "slope counts steps of the row variable: merging its categories changes "
+                     "what one step means.")
     if table.weight_kind == "sampling":
         notes.append("With sampling weights the rule counts respondents (records) per cell, "
                      "not weighted totals.")
