@@ -704,6 +704,10 @@ class OrdinalTable:
                     parts.append(f"{key}={{{inner}}}")
             if not args.get("dropna", True):
                 parts.append("dropna=False")
+            if self.non_substantive_extra is None:
+                parts.append("non_substantive=False")
+            elif self.non_substantive_extra:
+                parts.append(f"non_substantive={_list_literal(self.non_substantive_extra)}")
             call = f"rankfold.table({', '.join(parts)})"
         else:
             counts = np.asarray(

@@ -54,6 +54,11 @@ def test_labels_can_be_added_and_the_check_turned_off(answers):
     off = rankfold.table(answers, "x", "y", non_substantive=False)
     assert off.non_substantive == {"rows": [], "cols": []}
     assert "off the scale" not in off.measures().loc["gamma", "note"]
+    for table in (extra, off):  # the code of a table keeps the choice
+        namespace = {"df": answers}
+        exec(table.to_code(), namespace)
+        assert namespace["table"].non_substantive == table.non_substantive
+        pd.testing.assert_frame_equal(namespace["measures"], table.measures())
     with pytest.raises(ValueError, match="non_substantive must be a list"):
         rankfold.table(answers, "x", "y", non_substantive="no answer")
 
