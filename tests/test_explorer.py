@@ -358,6 +358,7 @@ def test_an_unexpected_failure_is_a_message_not_a_traceback(ex, monkeypatch):
     one(ex, "rankfold-colour-by").value = "row_percent"
     assert "Unexpected problem (RuntimeError: drawing failed)" in message(ex)
     assert ex.state.colour_by == "count"
+    assert ex.history == ((ex.state,), 0)  # the failed change left no entry to undo
 
 
 def test_a_text_column_with_a_given_order_can_be_reordered(df):

@@ -260,10 +260,15 @@ class Explorer(widgets.VBox):
                                          lambda error: self._counted(change, error))
                     return False
                 rendered = render(state, self._cache)
-                del self._history[self._cursor + 1:]
-                self._history.append(state)
+                redo_tail = self._history[self._cursor + 1:]
+                self._history[self._cursor + 1:] = [state]
                 self._cursor += 1
-                self._show(rendered)
+                try:
+                    self._show(rendered)
+                except Exception:
+                    self._cursor -= 1
+                    self._history[self._cursor + 1:] = redo_tail
+                    raise
             except Exception as err:  # noqa: BLE001 - shown in the widget, never as a traceback
                 self._refuse(err, previous)
                 if raise_errors:
