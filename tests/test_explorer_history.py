@@ -182,3 +182,27 @@ def test_steps_of_a_pair_keep_their_variable_after_a_swap(ex, df):
     ex.remove_step(0)  # now the row variable's first step: the exclusion of "no answer"
     assert_same_table(ex, rankfold.table(df, COL, ROW).merge("rows", [["very poor", "poor"]])
                       .merge("cols", [["10–20 km", "over 20 km"]]))
+
+
+def test_a_pane_holding_its_chart_without_a_specification_draws_it_again(ex):
+    from rankfold.widgets.chart_pane import ChartPane
+
+    pane = ChartPane("rankfold-test-pane")
+    chart = ex.chart("heatmap")
+    pane.show(chart)
+    expected = pane.spec
+    pane._chart.spec = None  # as left by a drawing cut short
+    pane.show(chart)  # the same chart object: Altair sees no change
+    assert pane.spec == expected and "$schema" not in pane.spec
+
+
+def test_a_tab_that_fails_to_draw_says_so(ex, monkeypatch):
+    tabs = one(ex, "rankfold-sections")
+    index = [t for t, _ in explorer_module.SECTIONS].index("Compare")
+
+    def broken(rendered):
+        raise RuntimeError("drawing failed")
+
+    monkeypatch.setattr(ex._sections[index], "show", broken)
+    tabs.selected_index = index
+    assert "Unexpected problem (RuntimeError: drawing failed)" in message(ex)

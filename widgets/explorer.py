@@ -213,7 +213,7 @@ class Explorer(widgets.VBox):
         self._tabs = widgets.Tab([s.widget for s in self._sections],
                                  titles=[title for title, _ in SECTIONS])
         self._tabs.add_class("rankfold-sections")
-        self._tabs.observe(lambda _: self._show_sections(), names="selected_index")
+        self._tabs.observe(lambda _: self._open_tab(), names="selected_index")
         self._measures = widgets.HTML()
         self._measures.add_class("rankfold-measures-box")
         left = widgets.VBox([*(e.widget for e in self._editors), self._steps.widget],
@@ -328,6 +328,14 @@ class Explorer(widgets.VBox):
             self._show_sections()
         finally:
             self._syncing = False
+
+    def _open_tab(self) -> None:
+        """Draw the tab just opened; a failure is a message, never a traceback."""
+        with self._lock:
+            try:
+                self._show_sections()
+            except Exception as err:  # noqa: BLE001 - shown in the widget
+                self._refuse(err)
 
     def _show_sections(self) -> None:
         """Draw the visible section; hidden ones are drawn when their tab is opened."""
