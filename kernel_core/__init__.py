@@ -68,6 +68,11 @@ __all__ = [
 ]
 
 
+def __dir__() -> list[str]:
+    # so that tab completion offers explore, which is imported lazily by __getattr__
+    return sorted(set(globals()) | {"explore"})
+
+
 def __getattr__(name: str) -> Any:
     # The explorer needs ipywidgets and altair; import it only on first use so the core stays
     # usable (and light) in scripts and distributed jobs.

@@ -54,13 +54,16 @@ def order_kind(dtype: object) -> str | None:
 
 def order_needed(name: str, found: Sequence[Hashable]) -> str:
     """The message for a row or column variable that has no order rankfold can trust."""
-    shown = [_python_scalar(x) for x in found][:12]
-    seen = f" (found categories {shown})" if shown else ""
-    example = repr(shown) if shown else "[lowest, ..., highest]"
+    values = sorted((_python_scalar(x) for x in found), key=str)
+    shown = values[:12]
+    more = f" and {len(values) - 12} more" if len(values) > 12 else ""
+    seen = (f" Its values, sorted alphabetically (not in any real order): {shown}{more}."
+            if shown else "")
     return (
-        f"Column {name!r} has no order rankfold can trust{seen}. Tell it the order with "
-        f"order={{{name!r}: {example}}} (listing the categories from lowest to highest), or "
-        "convert the column to an ordered pandas Categorical."
+        f"Column {name!r} has no order rankfold can trust.{seen} Tell it the order with "
+        f"order={{{name!r}: [lowest, ..., highest]}}, listing every category from lowest to "
+        "highest: put them in their real order yourself (an alphabetical or as-found order is "
+        "almost never the right one), or convert the column to an ordered pandas Categorical."
     )
 
 
@@ -313,6 +316,7 @@ def table(
     order: Mapping[str, Sequence[Hashable]] | None = None,
     exclude: Mapping[str, Sequence[Hashable]] | None = None,
     dropna: bool = True,
+    non_substantive: Sequence[Hashable] | bool = True,
     **unknown: Any,
 ) -> OrdinalTable:
     """Cross-tabulate two ordered variables of a DataFrame, a Dask or polars frame, or files.
@@ -348,6 +352,11 @@ def table(
     dropna : bool
         Drop records with a missing value (default; the number is kept as
         ``table.n_missing``), or keep missing values as a last category ``"(missing)"``.
+    non_substantive : list of labels or bool
+        Categories to flag as answers off the scale besides the common phrasings ("don't
+        know", "no answer", "refused", ...; see :attr:`OrdinalTable.non_substantive`);
+        ``False`` turns the check off. Flagged categories are named in the measures' notes,
+        never excluded automatically.
 
     Returns
     -------
@@ -388,6 +397,12 @@ def table(
             raise ValueError(f"{what}= names {stray}, which are not among row, col or control.")
         options[what] = {k: label_list(v, f"{what}[{k!r}]") for k, v in (given or {}).items()}
     order, exclude = options["order"], options["exclude"]
+    if non_substantive is False:
+        extra_flags = None
+    elif non_substantive is True:
+        extra_flags = ()
+    else:
+        extra_flags = tuple(label_list(non_substantive, "non_substantive"))
     source, tally = data, None
     if isinstance(data, pd.DataFrame):
         check_columns(data.columns, [row, col, control, weight])
@@ -492,6 +507,7 @@ def table(
         records=records,
         origin=origin,
         initial_steps=len(steps),
+        non_substantive_extra=extra_flags,
     )
 
 

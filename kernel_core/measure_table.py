@@ -144,6 +144,7 @@ def measures_frame(
     *,
     sampling: Sampling | None = None,
     confidence: float = 0.95,
+    extra_note: str = "",
 ) -> pd.DataFrame:
     """The measures of one 2-D table as a DataFrame (see :meth:`OrdinalTable.measures`).
 
@@ -155,6 +156,8 @@ def measures_frame(
         Survey-weight information for the standard errors.
     confidence : float
         Confidence level of the intervals, strictly between 0 and 1.
+    extra_note : str
+        A remark added to every row's note (e.g. the table's non-substantive categories).
 
     Returns
     -------
@@ -212,8 +215,10 @@ def measures_frame(
                 )
             )
 
+    extras = [extra_note] if extra_note else []
     if sampling.squared is not None:
-        extra = sampling_note(counts.sum(), sampling.squared.sum())
+        extras.insert(0, sampling_note(counts.sum(), sampling.squared.sum()))
+    for extra in extras:
         records = [(*r[:4], f"{r[4]}; {extra}" if r[4] else extra, *r[5:]) for r in records]
     keys, est, se, se0, notes, bounds, log_scale, on_bound = zip(*records, strict=True)
     p_values = [chi_square_p if key == "cramers_v" else None for key in keys]
@@ -261,7 +266,7 @@ def sampling_note(total: float, squared: float) -> str:
     size = f"{total**2 / squared:,.1f}" if squared > 0 else "undefined (no weight)"
     return (
         "sampling weights: Taylor-linearised errors, rows as a with-replacement sample "
-        f"(no clusters or strata); Kish effective n = {size}"
+        f"(no clusters or strata); effective sample size (Kish) = {size} respondents"
     )
 
 

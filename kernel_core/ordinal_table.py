@@ -21,9 +21,18 @@ from .cumulative_logit import cumulative_logit_frame
 from .diagnostics import Diagnostics, diagnose
 from .independence import PermutationResult, permutation_test, tests_frame
 from .measure_table import measures_frame
+from .non_substantive import flagged_labels, off_scale_note
 from .ordinal_measures import Sampling
 from .polychoric import polychoric
-from .steps import ExcludeStep, MergeStep, OrderStep, Step, default_merge_label, label_list
+from .steps import (
+    ExcludeStep,
+    MergeStep,
+    OrderStep,
+    Step,
+    collected_members,
+    default_merge_label,
+    label_list,
+)
 
 __all__ = ["OrdinalTable"]
 
@@ -89,6 +98,9 @@ class OrdinalTable:
         The control variable and its categories (a single unnamed level when there is none).
     weight, weight_kind : str or None
         The weight column and whether its weights are ``"frequency"`` or ``"sampling"``.
+    non_substantive_extra : tuple or None
+        Labels flagged as non-substantive besides the common phrasings (``non_substantive=``
+        of :func:`rankfold.table`); None turns the check off.
     """
 
     cells: np.ndarray  # (K, I, J) counts or sums of weights
@@ -107,6 +119,7 @@ class OrdinalTable:
     records: np.ndarray | None = None  # (K, I, J) data rows per cell when weight_kind == "sampling"
     origin: Origin = field(default_factory=lambda: Origin("counts"))
     initial_steps: int = 0
+    non_substantive_extra: tuple | None = ()
     # The table as collected (None: this one) and where each of its categories went here: the
     # position in this table, or -1 when left out. Kept so that two codings of the same data
     # can be compared with a paired standard error (see rankfold.coding_change).
@@ -142,6 +155,30 @@ class OrdinalTable:
     def shape(self) -> tuple[int, int]:
         """Number of row and column categories."""
         return len(self.row_labels), len(self.col_labels)
+
+    @property
+    def non_substantive(self) -> dict[str, list]:
+        """Categories that look like answers off the scale ("don't know", "no answer", ...).
+
+        Returns
+        -------
+        dict
+            ``{"rows": [...], "cols": [...]}``: labels of each variable that are, or (after a
+            merge) cover, one of :data:`rankfold.non_substantive.NON_SUBSTANTIVE_PHRASES`
+            (compared case-insensitively) or a label given in ``non_substantive=``. Counted
+            as a position on the scale they distort every ordinal measure; leave them out
+            with :meth:`exclude`. Nothing is excluded automatically.
+        """
+        return {
+            axis: flagged_labels(labels, collected_members(self.steps, name),
+                                 self.non_substantive_extra)
+            for axis, labels, name in (("rows", self.row_labels, self.row_name),
+                                       ("cols", self.col_labels, self.col_name))
+        }
+
+    def _non_substantive_note(self) -> str:
+        flagged = self.non_substantive
+        return off_scale_note({self.row_name: flagged["rows"], self.col_name: flagged["cols"]})
 
     def _pooled(self) -> np.ndarray:
         return self.cells.sum(axis=0)
@@ -231,7 +268,8 @@ class OrdinalTable:
         ----------
         Agresti, A. (2010). Analysis of Ordinal Categorical Data, 2nd ed., Wiley, ch. 7.
         """
-        return measures_frame(self._pooled(), sampling=self._sampling(), confidence=confidence)
+        return measures_frame(self._pooled(), sampling=self._sampling(), confidence=confidence,
+                              extra_note=self._non_substantive_note())
 
     def tests(self, scores: str | Sequence[Sequence[float]] | None = None) -> pd.DataFrame:
         """Tests of independence: Pearson X², likelihood-ratio G², linear trend M² = (n − 1) r².
@@ -717,6 +755,10 @@ class OrdinalTable:
                     parts.append(f"{key}={{{inner}}}")
             if not args.get("dropna", True):
                 parts.append("dropna=False")
+            if self.non_substantive_extra is None:
+                parts.append("non_substantive=False")
+            elif self.non_substantive_extra:
+                parts.append(f"non_substantive={_list_literal(self.non_substantive_extra)}")
             call = f"rankfold.table({', '.join(parts)})"
         else:
             counts = np.asarray(
@@ -755,8 +797,12 @@ class OrdinalTable:
             else ""
         )
         weight = f", weighted by {self.weight!r} ({self.weight_kind})" if self.weight else ""
+        n = self.n
+        total = f"n={n}" if isinstance(n, int) else f"weighted total={n:,.1f}"
+        if self.records is not None:
+            total += f", respondents={int(self.records.sum()):,}"
         return (
             f"<OrdinalTable {self.row_name!r} ({len(self.row_labels)}) x {self.col_name!r} "
-            f"({len(self.col_labels)}), n={self.n}{control}{weight}, {len(self.steps)} steps>\n"
+            f"({len(self.col_labels)}), {total}{control}{weight}, {len(self.steps)} steps>\n"
             f"{self.counts!r}"
         )

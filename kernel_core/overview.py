@@ -8,7 +8,6 @@ the core's measure functions. The frame is never re-read per pair.
 
 from __future__ import annotations
 
-import re
 from collections.abc import Callable, Hashable, Mapping, Sequence
 from dataclasses import dataclass
 from itertools import combinations
@@ -26,6 +25,7 @@ from .counting import (
     refuse_unknown_keywords,
 )
 from .measure_table import _undefined_reasons, inference_frame, interval_quantile, sampling_note
+from .non_substantive import flagged_labels, off_scale_note
 from .ordinal_measures import ORDINAL_MEASURES, Sampling, ordinal_measure_arrays
 from .ordinal_table import OrdinalTable
 from .steps import label_list
@@ -40,42 +40,6 @@ COLUMNS = [
     "sparse", "non_substantive", "coding_min", "coding_max", "coding_sign_changes",
     "coding_significance_changes", "note",
 ]
-
-_NON_SUBSTANTIVE = re.compile(
-    r"\b(?:don'?t know|do not know|no answer|refused|not applicable|prefer not to (?:say|answer)"
-    r"|no opinion)\b"
-)
-_NOT_APPLICABLE = {"n/a", "na", "dk", "dk/na"}
-
-
-def _non_substantive_labels(labels: Sequence[Hashable]) -> tuple:
-    """The labels that read as non-substantive answers, in their order.
-
-    Mirrors the table's own flag for such answers: text labels that say "don't know", "no
-    answer", "refused", "not applicable", "prefer not to say" (or "no opinion", "n/a", "dk"),
-    in any letter case and with a straight or curly apostrophe. Numbers and other labels are
-    never flagged.
-
-    Parameters
-    ----------
-    labels : sequence
-        Category labels.
-
-    Returns
-    -------
-    tuple
-        The flagged labels (common practice in survey coding: such answers are not points of
-        the scale and are usually set apart before measuring an ordinal association).
-    """
-    flagged = []
-    for label in labels:
-        if not isinstance(label, str):
-            continue
-        text = label.strip().lower().replace("\u2019", "'")
-        if text in _NOT_APPLICABLE or _NON_SUBSTANTIVE.search(text):
-            flagged.append(label)
-    return tuple(flagged)
-
 
 # ----------------------------------------------------------------------------- adjustment
 def adjust_p_values(p_values: Sequence[float] | np.ndarray, method: str | None = "holm"
@@ -515,12 +479,19 @@ def overview(
     where = np.lexsort((merged["b"], merged["a"]))
     merged = {key: value[where] for key, value in merged.items()}
     key = "partial_gamma" if control is not None else measure
+    flagged = {c.name: tuple(flagged_labels(c.labels, {}, ())) for c in cols}
+    if control is None:  # as measures() notes them (partial_measures() does not)
+        merged["reason"] = np.array([
+            "; ".join(x for x in (reason, off_scale_note(
+                {cols[a].name: flagged[cols[a].name], cols[b].name: flagged[cols[b].name]}))
+                if x)
+            for reason, a, b in zip(merged["reason"], merged["a"], merged["b"], strict=True)
+        ], dtype=object)
     inference = inference_frame(
         [key] * len(where), merged["estimate"], merged["std_error"], merged["std_error_null"],
         list(merged["reason"]), crit=interval_quantile(0.95),
         on_bound=list(merged["on_bound"]),
     )
-    flagged = {c.name: _non_substantive_labels(c.labels) for c in cols}
     var_a = [cols[a].name for a in merged["a"]]
     var_b = [cols[b].name for b in merged["b"]]
     n_values = merged["n"]

@@ -7,6 +7,7 @@ background count is held on an event so the test can look at the explorer while 
 from __future__ import annotations
 
 import threading
+import time
 
 import numpy as np
 import pandas as pd
@@ -89,8 +90,8 @@ def test_pickers_list_the_source_columns_from_their_types(parquet_path):
     assert "weight" in weights and "gym" not in weights
 
 
-def test_choosing_a_pair_counts_in_the_background(visits, parquet_path, monkeypatch):
-    ex = rankfold.explore(parquet_path, "sessions_per_month", "route_grade")
+def hold_counts(monkeypatch) -> tuple[threading.Event, threading.Event]:
+    """Make every count wait for ``release``; ``started`` is set when one begins."""
     release, started = threading.Event(), threading.Event()
     count = rankfold.sources.tally_source
 
@@ -100,6 +101,12 @@ def test_choosing_a_pair_counts_in_the_background(visits, parquet_path, monkeypa
         return count(*args, **kwargs)
 
     monkeypatch.setattr(rankfold.sources, "tally_source", held_count)
+    return release, started
+
+
+def test_choosing_a_pair_counts_in_the_background(visits, parquet_path, monkeypatch):
+    ex = rankfold.explore(parquet_path, "sessions_per_month", "route_grade")
+    release, started = hold_counts(monkeypatch)
     ex._pickers._row.value = "years_member"  # as a click in the row picker
     # Control came back while the count is held: the notebook is free for other cells.
     assert started.wait(20)
@@ -157,3 +164,41 @@ def test_table_mode_refuses_other_roles_in_the_widget(visits):
 def test_unknown_data_is_refused():
     with pytest.raises(ValueError, match="cannot count a builtins.list"):
         rankfold.explore([[1, 2], [3, 4]])
+
+
+def test_an_edit_made_while_a_count_runs_is_kept(visits, parquet_path, monkeypatch):
+    ex = rankfold.explore(parquet_path, "sessions_per_month", "route_grade")
+    release, started = hold_counts(monkeypatch)
+    ex._pickers._row.value = "years_member"  # counted in the background ...
+    assert started.wait(20)
+    ex.merge("cols", [[3, 4]])  # ... while the reader merges on the variable that stays
+    release.set()
+    ex.wait(20)
+    # The count's proposal landed on the state as it was by then: the merge is kept.
+    assert (ex.state.row, ex.state.col) == ("years_member", "route_grade")
+    assert [e.describe() for e in ex.state.edits] == ["route_grade: merge [3, 4]"]
+    # pandas.crosstab of the records, with the two grades merged by hand
+    merged = visits.assign(route_grade=visits["route_grade"].clip(upper=3))
+    assert ex.table.counts.to_numpy().tolist() == crosstab(merged, "years_member", "route_grade")
+    assert ex._message.value == ""
+    ex.undo()  # each change is its own entry: the pair, then the merge
+    assert (ex.state.row, [len(ex.state.edits)]) == ("sessions_per_month", [1])
+
+
+def test_a_count_ending_while_the_explorer_draws_is_not_lost(parquet_path):
+    ex = rankfold.explore(parquet_path, "sessions_per_month", "route_grade")
+    wanted = ex.state.with_variables("years_member", "route_grade")
+    with ex._lock:  # as if the explorer were drawing a state in the notebook's thread
+        ex._syncing = True
+        ex._pickers._row.value = "years_member"  # an echo of a state being shown: ignored
+        assert ex._counting.widget.value == ""
+        ex._counting.start(wanted, ex._cache.collected, ex._cache.data,
+                           lambda error: ex._counted(
+                               lambda s: s.with_variables("years_member", s.col), error))
+        deadline = time.monotonic() + 30
+        while wanted.table_key not in ex._cache._tables and time.monotonic() < deadline:
+            time.sleep(0.02)  # the count ends while the drawing goes on
+        time.sleep(0.1)
+        ex._syncing = False
+    ex.wait(30)
+    assert ex.state.row == "years_member"  # its proposal waited for the drawing, not dropped

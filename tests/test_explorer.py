@@ -80,11 +80,6 @@ def assert_same_table(ex, expected: rankfold.OrdinalTable) -> None:
 
 
 @pytest.fixture
-def df() -> pd.DataFrame:
-    return rankfold.demo.transit_survey()
-
-
-@pytest.fixture
 def ex(df):
     return rankfold.explore(df, ROW, COL)
 
@@ -103,12 +98,12 @@ def test_buttons_and_toggles_match_the_core(ex, df):
     leave_out(ex, "cols", "no answer")
     merge_toggle(ex, "10–20 km", "over 20 km").value = True
     merge_toggle(ex, "very poor", "poor").value = True
-    expected = (rankfold.table(df, ROW, COL).exclude("cols", ["no answer"])
-                .merge("rows", [["10–20 km", "over 20 km"]])
-                .merge("cols", [["very poor", "poor"]]))
+    # the steps list shows the row variable's coding, then the column variable's
+    expected = (rankfold.table(df, ROW, COL).merge("rows", [["10–20 km", "over 20 km"]])
+                .exclude("cols", ["no answer"]).merge("cols", [["very poor", "poor"]]))
     assert_same_table(ex, expected)
-    steps = one(ex, "rankfold-steps").children[0].value
-    assert steps.count("<li>") == 3 and "exclude no answer" in steps
+    lines = [line.children[0].value for line in find(ex, "rankfold-step")]
+    assert len(lines) == 3 and "exclude no answer" in lines[1]
     assert message(ex) == ""
 
 
@@ -187,23 +182,59 @@ def test_swap_keeps_edits_with_their_variables(ex, df):
     assert one(ex, "rankfold-row-picker").value == COL
 
 
-def test_changing_a_variable_drops_only_its_edits(ex, df):
+def test_every_variable_keeps_its_coding_when_another_is_picked(ex, df):
     leave_out(ex, "cols", "no answer")
     merge_toggle(ex, "10–20 km", "over 20 km").value = True
+    merge_toggle(ex, "very poor", "poor").value = True
+    full = (rankfold.table(df, ROW, COL).merge("rows", [["10–20 km", "over 20 km"]])
+            .exclude("cols", ["no answer"]).merge("cols", [["very poor", "poor"]]))
     one(ex, "rankfold-row-picker").value = "age_band"
-    assert_same_table(ex, rankfold.table(df, "age_band", COL).exclude("cols", ["no answer"]))
-    one(ex, "rankfold-col-picker").value = "age_band"  # the other axis's variable: a swap
-    assert (ex.state.row, ex.state.col) == (COL, "age_band")
+    assert_same_table(ex, rankfold.table(df, "age_band", COL).exclude("cols", ["no answer"])
+                      .merge("cols", [["very poor", "poor"]]))
+    assert ex.codings[ROW] == ex.state.coding(ROW) and len(ex.codings[ROW]) == 1
+    one(ex, "rankfold-row-picker").value = ROW  # picked again: its merge is back
+    assert_same_table(ex, full)
+    one(ex, "rankfold-col-picker").value = ROW  # the other axis's variable: a swap
+    assert (ex.state.row, ex.state.col) == (COL, ROW)
+    assert_same_table(ex, rankfold.table(df, COL, ROW).exclude("rows", ["no answer"])
+                      .merge("rows", [["very poor", "poor"]])
+                      .merge("cols", [["10–20 km", "over 20 km"]]))
 
 
-def test_undo_and_reset_buttons(ex, df):
+def test_undo_and_redo_walk_every_change(ex, df):
+    leave_out(ex, "cols", "no answer")
+    merge_toggle(ex, "10–20 km", "over 20 km").value = True
+    merge_toggle(ex, "very poor", "poor").value = True
+    full = (rankfold.table(df, ROW, COL).merge("rows", [["10–20 km", "over 20 km"]])
+            .exclude("cols", ["no answer"]).merge("cols", [["very poor", "poor"]]))
+    one(ex, "rankfold-row-picker").value = "age_band"
+    one(ex, "rankfold-undo").click()  # the picker change is undone, the pair comes back whole
+    assert (ex.state.row, ex.state.col) == (ROW, COL)
+    assert one(ex, "rankfold-row-picker").value == ROW
+    assert_same_table(ex, full)
+    one(ex, "rankfold-redo").click()
+    assert ex.state.row == "age_band" and one(ex, "rankfold-redo").disabled
+    ex.undo()
+    ex.undo()  # the last coding edit: the "very poor"/"poor" merge, not another one
+    assert_same_table(ex, rankfold.table(df, ROW, COL).merge("rows", [["10–20 km", "over 20 km"]])
+                      .exclude("cols", ["no answer"]))
+    ex.set_view(colour_by="row_percent")  # a new change drops the redo tail
+    assert one(ex, "rankfold-redo").disabled
+    ex.redo()
+    assert "Nothing to redo" in message(ex) and ex.state.colour_by == "row_percent"
+
+
+def test_reset_takes_back_every_coding_and_can_be_undone(ex, df):
     leave_out(ex, "cols", "no answer")
     merge_toggle(ex, "very poor", "poor").value = True
-    one(ex, "rankfold-undo").click()
-    assert_same_table(ex, rankfold.table(df, ROW, COL).exclude("cols", ["no answer"]))
+    one(ex, "rankfold-row-picker").value = "age_band"
+    merge_toggle(ex, "40–59", "60+").value = True
     one(ex, "rankfold-reset").click()
-    assert_same_table(ex, rankfold.table(df, ROW, COL))
-    assert one(ex, "rankfold-undo").disabled
+    assert_same_table(ex, rankfold.table(df, "age_band", COL))
+    assert ex.codings == {}
+    one(ex, "rankfold-undo").click()
+    assert len(ex.codings[COL]) == 2 and len(ex.codings["age_band"]) == 1
+    assert one(ex, "rankfold-reset").disabled is False
 
 
 def test_reorder_buttons_only_without_a_declared_order(df):
@@ -327,6 +358,7 @@ def test_an_unexpected_failure_is_a_message_not_a_traceback(ex, monkeypatch):
     one(ex, "rankfold-colour-by").value = "row_percent"
     assert "Unexpected problem (RuntimeError: drawing failed)" in message(ex)
     assert ex.state.colour_by == "count"
+    assert ex.history == ((ex.state,), 0)  # the failed change left no entry to undo
 
 
 def test_a_text_column_with_a_given_order_can_be_reordered(df):

@@ -188,13 +188,15 @@ def test_bad_input_raises_clear_value_error(survey, call, words):
         call(survey)
 
 
-def test_non_substantive_labels():
-    from rankfold.overview import _non_substantive_labels
-
-    labels = ["agree", "Don\u2019t know", "No answer", "refused", "not applicable",
-              "Prefer not to say", "n/a", 3, "knowledgeable"]
-    assert _non_substantive_labels(labels) == (
-        "Don\u2019t know", "No answer", "refused", "not applicable", "Prefer not to say", "n/a")
+def test_non_substantive_flags_are_the_tables_own(survey):
+    # the overview flags exactly what OrdinalTable.non_substantive flags for each column
+    frame = rankfold.overview(survey, ITEMS, order=ORDER)
+    flagged = frame.attrs["non_substantive"]
+    for row in frame.itertuples():
+        order = {k: v for k, v in ORDER.items() if k in (row.var_a, row.var_b)}
+        t = rankfold.table(survey, row.var_a, row.var_b, order=order)
+        assert flagged.get(row.var_a, []) == t.non_substantive["rows"]
+        assert flagged.get(row.var_b, []) == t.non_substantive["cols"]
 
 
 def test_old_layer_keyword_names_control(survey):

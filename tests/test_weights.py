@@ -132,10 +132,11 @@ def test_kish_effective_size_in_notes(survey):
     w = survey["w"]
     # Kish (1965, Survey Sampling): n_eff = (sum w)^2 / sum w^2
     kish = w.sum() ** 2 / (w**2).sum()
-    assert f"Kish effective n = {kish:,.1f}" in t.measures().loc["gamma", "note"]
+    assert f"effective sample size (Kish) = {kish:,.1f} respondents" in (
+        t.measures().loc["gamma", "note"])
     for label, part in survey.groupby("region")["w"]:
         note = t.control_measures().loc[(label, "gamma"), "note"]
-        assert f"Kish effective n = {part.sum() ** 2 / (part**2).sum():,.1f}" in note
+        assert f"effective sample size (Kish) = {part.sum() ** 2 / (part**2).sum():,.1f}" in note
 
 
 def test_count_based_tests_refuse_sampling_weights(survey):

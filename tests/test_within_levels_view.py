@@ -103,7 +103,7 @@ def test_explorer_takes_level_and_weights(visits):
     ex = rankfold.explore(visits, ROW, COL, control=CONTROL, weight="visit_weight",
                           weight_kind="sampling")
     assert (ex.table.control_name, ex.table.weight_kind) == (CONTROL, "sampling")
-    assert "Kish effective n" in ex.measures.loc["gamma", "note"]
+    assert "effective sample size (Kish)" in ex.measures.loc["gamma", "note"]
     ex.merge("cols", [["very unhappy", "unhappy"]])
     # merges reach every level: compare with pandas on recoded records (outside reference)
     recoded = visits.assign(**{COL: visits[COL].astype(str).replace("very unhappy", "unhappy")})

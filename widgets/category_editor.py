@@ -8,6 +8,7 @@ from typing import TYPE_CHECKING
 import ipywidgets as widgets
 
 from rankfold import OrderStep
+from rankfold.steps import collected_members
 
 from . import formatting
 from .state import Edit
@@ -28,20 +29,24 @@ def _small(widget: widgets.DOMWidget, css_class: str, tooltip: str) -> widgets.D
 
 
 class _CategoryRow:
-    """The controls of the k-th category: name and count, leave out, move up and down."""
+    """The controls of the k-th category: name and count, leave out, move up and down, and
+    split (for a merged category)."""
 
     def __init__(self, editor: CategoryEditor, k: int) -> None:
         self.name = widgets.HTML(layout=widgets.Layout(min_width="150px"))
         self.leave_out = _small(widgets.Button(description="leave out"), "rankfold-exclude", "")
         self.up = _small(widgets.Button(description="↑"), "rankfold-move-up", "")
         self.down = _small(widgets.Button(description="↓"), "rankfold-move-down", "")
+        self.split = _small(widgets.Button(description="split"), "rankfold-split", "")
         self.leave_out.on_click(lambda _: editor.exclude(k))
         self.up.on_click(lambda _: editor.move(k, -1))
         self.down.on_click(lambda _: editor.move(k, 1))
-        self.widget = widgets.HBox([self.name, self.leave_out, self.up, self.down])
+        self.split.on_click(lambda _: editor.split(k))
+        self.widget = widgets.HBox([self.name, self.leave_out, self.up, self.down, self.split])
         self.widget.add_class("rankfold-category")
 
-    def show(self, label: Hashable, total: float, k: int, size: int, movable: bool) -> None:
+    def show(self, label: Hashable, total: float, k: int, size: int, movable: bool,
+             merged: bool) -> None:
         self.name.value = (
             f"<span class='rankfold-category-label'>{formatting.text(label)}</span> "
             f"<span class='rankfold-category-count'>({formatting.amount(total)})</span>"
@@ -51,14 +56,18 @@ class _CategoryRow:
         self.up.disabled, self.down.disabled = k == 0, k == size - 1
         shown = None if movable else "none"
         self.up.layout.display = self.down.layout.display = shown
+        self.split.tooltip = f"Split {label} into the categories it was merged from"
+        self.split.layout.display = None if merged else "none"
 
 
 class CategoryEditor:
     """The categories of one axis in order, with their counts and coding controls.
 
     Between two neighbours a toggle merges them; each category can be left out; when the
-    variable has no declared order, arrows move a category up or down. Splitting a merge is
-    done with the steps panel's undo. Controls are reused from one table to the next.
+    variable has no declared order, arrows move a category up or down; a merged category can
+    be split again. Below, the categories left out, each with a button that brings it back,
+    and a warning (with a one-click "leave out") when a category looks like an answer off the
+    scale. Controls are reused from one table to the next.
 
     Parameters
     ----------
@@ -66,16 +75,28 @@ class CategoryEditor:
         Which variable of the table this editor codes.
     propose : callable
         Takes a function from state to new state.
+    collected : callable
+        The table as collected for a state (to replay a coding without one of its steps).
     """
 
-    def __init__(self, axis: str, propose: Callable) -> None:
+    def __init__(self, axis: str, propose: Callable, collected: Callable) -> None:
         self._axis = axis
         self._propose = propose
+        self._collected = collected
         self._variable = ""
         self._labels: list = []
+        self._flagged: list = []
         self._rows: list[_CategoryRow] = []
         self._toggles: list[widgets.ToggleButton] = []
         self._title = widgets.HTML()
+        self._warning = widgets.HTML()
+        self._warning.add_class("rankfold-non-substantive")
+        self._leave_flagged = _small(widgets.Button(description="leave them out"),
+                                     "rankfold-leave-out-flagged", "")
+        self._leave_flagged.on_click(lambda _: self.exclude_flagged())
+        self._flag_box = widgets.VBox([self._warning, self._leave_flagged])
+        self._left_out = widgets.VBox()
+        self._left_out.add_class("rankfold-left-out")
         self.widget = widgets.VBox([self._title])
         self.widget.add_class(f"rankfold-editor-{axis}")
         self.widget.add_class("rankfold-editor")
@@ -97,6 +118,7 @@ class CategoryEditor:
             f"<b>{_AXIS_TITLES[self._axis]}: {formatting.text(self._variable)}</b> "
             f"<span class='rankfold-hint'>(order {origin})</span>"
         )
+        members = collected_members(table.steps, self._variable)
         children: list[widgets.Widget] = [self._title]
         for k, (label, total) in enumerate(totals):
             if k > 0:
@@ -104,10 +126,49 @@ class CategoryEditor:
                 toggle.value = False
                 toggle.tooltip = f"Merge {self._labels[k - 1]} and {label}"
                 children.append(toggle)
-            self._rows[k].show(label, total, k, size, movable=origin != "declared")
+            self._rows[k].show(label, total, k, size, movable=origin != "declared",
+                               merged=len(members.get(label, (label,))) > 1)
             children.append(self._rows[k].widget)
+        self._flagged = table.non_substantive[self._axis]
+        if self._flagged:
+            shown = ", ".join(f"“{formatting.text(x)}”" for x in self._flagged)
+            self._warning.value = (
+                f"<div class='rankfold-warning'>{shown} looks like an answer off the scale; "
+                "counted as a position on it, it distorts every measure. Leave it out unless "
+                "it belongs there.</div>")
+            self._leave_flagged.tooltip = f"Leave out {', '.join(map(str, self._flagged))}"
+            children.append(self._flag_box)
+        left_out = rendered.state.left_out(self._axis)
+        if left_out:
+            self._left_out.children = [
+                widgets.HTML("<span class='rankfold-hint'>left out:</span>"),
+                *(self._left_out_line(label) for label in left_out)]
+            children.append(self._left_out)
         if tuple(children) != self.widget.children:
             self.widget.children = children
+
+    def _left_out_line(self, label: Hashable) -> widgets.HBox:
+        back = _small(widgets.Button(description="bring back"), "rankfold-bring-back",
+                      f"Count the units in {label} again")
+        back.on_click(lambda _: self.bring_back(label))
+        return widgets.HBox([widgets.HTML(
+            f"<span class='rankfold-left-out-label'>{formatting.text(label)}</span>",
+            layout=widgets.Layout(min_width="150px")), back])
+
+    def split(self, k: int) -> None:
+        """Propose taking back the merge that made the k-th category."""
+        axis, label, collected = self._axis, self._labels[k], self._collected
+        self._propose(lambda s: s.with_merge_split(axis, label, collected(s)))
+
+    def bring_back(self, label: Hashable) -> None:
+        """Propose counting a left-out category again."""
+        axis, collected = self._axis, self._collected
+        self._propose(lambda s: s.with_brought_back(axis, label, collected(s)))
+
+    def exclude_flagged(self) -> None:
+        """Propose leaving out the categories flagged as answers off the scale."""
+        edit = Edit("exclude", self._variable, tuple(self._flagged))
+        self._propose(lambda s: s.with_edit(edit))
 
     def exclude(self, k: int) -> None:
         """Propose leaving out the k-th category."""
@@ -143,32 +204,65 @@ class CategoryEditor:
 
 
 class StepsPanel:
-    """The applied coding steps in order, with undo and reset.
+    """The steps of the shown pair, each with a remove button, and the history buttons
+    (undo, redo, reset).
 
     Parameters
     ----------
     propose : callable
         Takes a function from state to new state.
+    collected : callable
+        The table as collected for a state (to replay a coding without one of its steps).
+    walk : callable
+        ``walk(-1)`` undoes the last change of any kind, ``walk(1)`` redoes it.
     """
 
-    def __init__(self, propose: Callable) -> None:
-        self._list = widgets.HTML()
+    def __init__(self, propose: Callable, collected: Callable, walk: Callable) -> None:
+        self._propose = propose
+        self._collected = collected
+        self._title = widgets.HTML("<b>steps</b>")
+        self._list = widgets.VBox()
+        self._lines: list[tuple[widgets.HTML, widgets.Button, widgets.HBox]] = []
+        self._none = widgets.HTML("<p class='rankfold-hint'>none yet: the table as collected</p>")
         self._undo = _small(widgets.Button(description="undo"), "rankfold-undo",
-                            "Take back the last step")
+                            "Take back the last change (of any kind)")
+        self._redo = _small(widgets.Button(description="redo"), "rankfold-redo",
+                            "Make again the change last taken back")
         self._reset = _small(widgets.Button(description="reset"), "rankfold-reset",
-                             "Take back every step")
-        self._undo.on_click(lambda _: propose(lambda s: s.undone()))
-        self._reset.on_click(lambda _: propose(lambda s: s.reset()))
-        self.widget = widgets.VBox([self._list, widgets.HBox([self._undo, self._reset])])
+                             "Take back every variable's coding (undo brings it back)")
+        self._undo.on_click(lambda _: walk(-1))
+        self._redo.on_click(lambda _: walk(1))
+        self._reset.on_click(lambda _: propose(lambda s: s.collected()))
+        self.widget = widgets.VBox([self._title, self._list,
+                                    widgets.HBox([self._undo, self._redo, self._reset])])
         self.widget.add_class("rankfold-steps")
 
-    def show(self, rendered: Rendered) -> None:
+    def _line(self, k: int) -> tuple[widgets.HTML, widgets.Button, widgets.HBox]:
+        text = widgets.HTML(layout=widgets.Layout(min_width="250px"))
+        remove = _small(widgets.Button(description="remove"), "rankfold-remove-step", "")
+        collected = self._collected
+        remove.on_click(lambda _: self._propose(
+            lambda s: s.with_step_replaced(k, None, collected(s))))
+        box = widgets.HBox([text, remove])
+        box.add_class("rankfold-step")
+        return text, remove, box
+
+    def show(self, rendered: Rendered, can_undo: bool = False, can_redo: bool = False) -> None:
         """List the steps the current table went through after it was counted."""
         table = rendered.table
         steps = table.steps[table.initial_steps:]
-        items = "".join(f"<li>{formatting.text(s.describe())}</li>" for s in steps)
-        self._list.value = (
-            f"<b>steps</b><ol class='rankfold-step-list'>{items}</ol>" if steps
-            else "<b>steps</b><p class='rankfold-hint'>none yet: the table as collected</p>"
-        )
-        self._undo.disabled = self._reset.disabled = not steps
+        while len(self._lines) < len(steps):
+            self._lines.append(self._line(len(self._lines)))
+        for k, step in enumerate(steps):
+            text, remove, _ = self._lines[k]
+            text.value = (f"<span class='rankfold-step-text'>{k + 1}. "
+                          f"{formatting.text(step.describe())}</span>")
+            remove.tooltip = f"Take back step {k + 1} only; the others are replayed"
+        self._list.children = ([box for _, _, box in self._lines[:len(steps)]] if steps
+                               else [self._none])
+        if steps:
+            self._list.add_class("rankfold-step-list")
+        else:
+            self._list.remove_class("rankfold-step-list")
+        self._undo.disabled, self._redo.disabled = not can_undo, not can_redo
+        self._reset.disabled = not rendered.state.codings

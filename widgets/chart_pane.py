@@ -91,9 +91,12 @@ class ChartPane:
             return
         with self._chart.hold_sync():
             self._chart.chart = chart
+            # A pane can hold this very chart with no specification, when drawing it was cut
+            # short (seen in JupyterLab when a click and a tab switch cross): build it again.
+            spec = self._chart.spec if self._chart.spec is not None else chart.to_dict()
             # "$schema" is only a version tag, never fetched; leave it out so the page holds
             # no outside address at all.
-            self._chart.spec = {k: v for k, v in self._chart.spec.items() if k != "$schema"}
+            self._chart.spec = {k: v for k, v in spec.items() if k != "$schema"}
         if self.widget.children != (self._chart,):
             self.widget.children = [self._chart]
 

@@ -16,7 +16,6 @@ import numpy as np
 import pandas as pd
 
 from rankfold.ordinal_table import OrdinalTable
-from rankfold.overview import _non_substantive_labels
 
 from .chart_pane import building, inline_data
 
@@ -68,8 +67,8 @@ def diverging_segments(
     table : OrdinalTable
         The table (pooled over a control variable; sums of weights when weighted).
     non_substantive : sequence of labels, optional
-        Column categories to set apart from the scale; default: the labels that read as
-        non-substantive answers ("don't know", "no answer", ...).
+        Column categories to set apart from the scale; default: those the table flags as
+        answers off the scale (:attr:`OrdinalTable.non_substantive`, "don't know", ...).
 
     Returns
     -------
@@ -85,7 +84,7 @@ def diverging_segments(
     table = _check_table(table)
     labels = list(table.col_labels)
     if non_substantive is None:
-        apart = list(_non_substantive_labels(labels))
+        apart = list(table.non_substantive["cols"])
     else:
         apart = list(non_substantive)
         unknown = [x for x in apart if x not in labels]

@@ -25,8 +25,13 @@ CSS classes (stable, for styling and browser tests)
     ``rankfold-exclude`` button and, when the order was not declared, ``rankfold-move-up`` and
     ``rankfold-move-down`` buttons. Between neighbours sits a ``rankfold-merge-toggle``
     button whose tooltip (title) reads ``Merge <upper> and <lower>``.
-``rankfold-steps``, ``rankfold-undo``, ``rankfold-reset``
-    The list of applied steps (``ol.rankfold-step-list``) with undo and reset.
+    A merged category also has a ``rankfold-split`` button; categories left out are listed
+    below (``rankfold-left-out``) with a ``rankfold-bring-back`` button each; answers that look
+    off the scale ("no answer", ...) raise a ``rankfold-non-substantive`` warning with a
+    ``rankfold-leave-out-flagged`` button.
+``rankfold-steps``, ``rankfold-undo``, ``rankfold-redo``, ``rankfold-reset``
+    The steps of the shown pair (``rankfold-step-list``: one ``rankfold-step`` line each, with
+    a ``rankfold-remove-step`` button) and the history buttons.
 ``rankfold-sections``
     The tabs (Heatmap, Pairs, Compare, Codings, Export by default; see :data:`SECTIONS`).
 ``rankfold-sweep``, ``rankfold-sweep-summary``, ``rankfold-sweep-run``, ``rankfold-sweep-use``
@@ -52,6 +57,7 @@ CSS classes (stable, for styling and browser tests)
 
 from __future__ import annotations
 
+import threading
 from collections.abc import Callable, Hashable, Mapping, Sequence
 from typing import TYPE_CHECKING, Any
 
@@ -133,6 +139,12 @@ _STYLE = """<style>
 </style>"""
 
 
+def _usable(data: Any, column: str) -> bool:
+    """Whether a column offered for rows or columns holds two values or more (known for a
+    DataFrame; a source's columns are checked when counted)."""
+    return not has_records(data) or data[column].nunique(dropna=True) >= 2
+
+
 def _axis(axis: str) -> str:
     if axis not in ("rows", "cols"):
         raise ValueError(f"axis must be 'rows' or 'cols'; got {axis!r}.")
@@ -168,12 +180,15 @@ class Explorer(widgets.VBox):
         for name in (row, col):
             if name is not None and name not in offer.columns:
                 raise ValueError(f"{name!r} is not a column; the columns are {offer.columns}.")
-        free = [c for c in columns if c not in (row, col, control, weight)]
+        free = [c for c in columns if c not in (row, col, control, weight) and _usable(data, c)]
         row = row if row is not None else (free.pop(0) if free else None)
         col = col if col is not None else (free.pop(0) if free else None)
         if row is None or col is None:
+            empty = has_records(data) and len(data) == 0
             raise ValueError(
-                f"Need two columns that can be put in order; found {columns}. Ordered "
+                "The frame has no rows, so there is nothing to explore." if empty else
+                f"Need two columns that can be put in order and hold at least two different "
+                f"values; found {[c for c in columns if _usable(data, c)]}. Ordered "
                 "Categoricals and numeric columns with few values qualify; give text columns an "
                 "order, e.g. explore(df, order={'answer': ['low', 'mid', 'high']})."
             )
@@ -183,23 +198,27 @@ class Explorer(widgets.VBox):
         )
         self._cache = TableCache(data)
         self._rendered: Rendered = render(state, self._cache)
+        self._history: list[ExplorerState] = [state]
+        self._cursor = 0
+        self._lock = threading.RLock()  # background counts report from their own thread
         self._syncing = False
         self._record = SavedRecord()  # the static copy of the state kept in saved notebooks
         self._message = widgets.HTML()
         self._message.add_class("rankfold-message")
-        propose = self._propose
+        propose = self._control_proposal
         offered = columns + [c for c in (row, col) if c not in columns]
         self._pickers = VariablePickers(offered, propose, controls=offer.controls,
                                         weights=offer.weights)
         self._counting = BackgroundCount()
-        self._editors = [CategoryEditor("rows", propose), CategoryEditor("cols", propose)]
-        self._steps = StepsPanel(propose)
+        self._editors = [CategoryEditor("rows", propose, self._collected),
+                         CategoryEditor("cols", propose, self._collected)]
+        self._steps = StepsPanel(propose, self._collected, self._walk)
         self._sections = [factory(propose, self._notify) for _, factory in SECTIONS]
         self._stale = set(range(len(self._sections)))
         self._tabs = widgets.Tab([s.widget for s in self._sections],
                                  titles=[title for title, _ in SECTIONS])
         self._tabs.add_class("rankfold-sections")
-        self._tabs.observe(lambda _: self._show_sections(), names="selected_index")
+        self._tabs.observe(lambda _: self._open_tab(), names="selected_index")
         self._measures = widgets.HTML()
         self._measures.add_class("rankfold-measures-box")
         left = widgets.VBox([*(e.widget for e in self._editors), self._steps.widget],
@@ -220,40 +239,82 @@ class Explorer(widgets.VBox):
             f'<div class="rankfold-message-{kind}">{formatting.text(text)}</div>' if text else ""
         )
 
+    def _collected(self, state: ExplorerState) -> OrdinalTable:
+        """The table as collected for a state (counted already: the state is on screen)."""
+        return self._cache.collected(state)
+
+    def _control_proposal(self, change: Callable[[ExplorerState], ExplorerState]) -> bool:
+        """A proposal from a control; the controls echo a state being shown, which is not a
+        change and is ignored."""
+        return False if self._syncing else self._propose(change)
+
     def _propose(self, change: Callable[[ExplorerState], ExplorerState],
-                 raise_errors: bool = False) -> None:
-        """Apply ``change`` to the state if the result can be rendered; else keep the old one."""
-        if self._syncing:
-            return
-        previous = self._rendered
-        try:
-            state = change(previous.state)
-            if state == previous.state:
-                return
-            if not raise_errors and self._cache.needs_count(state):  # a slow engine: don't wait
-                self._counting.start(state, self._cache.collected, self._cache.data, self._counted)
-                return
-            rendered = render(state, self._cache)
-            self._show(rendered)
-        except Exception as err:  # noqa: BLE001 - shown in the widget, never as a traceback
-            expected = isinstance(err, ValueError)
-            text = str(err) if expected else (
-                f"Unexpected problem ({type(err).__name__}: {err}); nothing was changed.")
-            self._show(previous)
-            self._notify(text, error=True)
-            if raise_errors:
-                raise
-            return
-        self._notify("")
+                 raise_errors: bool = False) -> bool:
+        """Apply ``change`` to the current state and, if the result can be rendered, append it
+        to the history (dropping the redo tail) and show it; else keep the current state and
+        say why in the message area. Returns True when the change was made (or changed
+        nothing)."""
+        with self._lock:
+            previous = self._rendered
+            try:
+                state = change(previous.state)
+                if state == previous.state:
+                    return True
+                if not raise_errors and self._cache.needs_count(state):  # a slow engine
+                    self._counting.start(state, self._cache.collected, self._cache.data,
+                                         lambda error: self._counted(change, error))
+                    return False
+                rendered = render(state, self._cache)
+                redo_tail = self._history[self._cursor + 1:]
+                self._history[self._cursor + 1:] = [state]
+                self._cursor += 1
+                try:
+                    self._show(rendered)
+                except Exception:
+                    self._cursor -= 1
+                    self._history[self._cursor + 1:] = redo_tail
+                    raise
+            except Exception as err:  # noqa: BLE001 - shown in the widget, never as a traceback
+                self._refuse(err, previous)
+                if raise_errors:
+                    raise
+                return False
+            self._notify("")
+            return True
 
-    def _counted(self, state: ExplorerState, error: Exception | None) -> None:
-        """A background count has finished: show its state, or say why it failed."""
-        def outcome(_: ExplorerState) -> ExplorerState:
+    def _refuse(self, err: Exception, shown: Rendered | None = None) -> None:
+        expected = isinstance(err, ValueError)
+        text = str(err) if expected else (
+            f"Unexpected problem ({type(err).__name__}: {err}); nothing was changed.")
+        if shown is not None:
+            self._show(shown)  # puts back controls a refused change had moved
+        self._notify(text, error=True)
+
+    def _counted(self, change: Callable[[ExplorerState], ExplorerState],
+                 error: Exception | None) -> None:
+        """A background count has finished: propose the change again, to whatever the state
+        is by now (so edits made meanwhile are kept), or say why the count failed."""
+        with self._lock:
             if error is not None:
-                raise error
-            return state
+                self._refuse(error, self._rendered)
+                return
+            self._propose(change)
 
-        self._propose(outcome)
+    def _walk(self, step: int) -> None:
+        """Move through the history: -1 is undo, +1 redo."""
+        with self._lock:
+            target = self._cursor + step
+            if not 0 <= target < len(self._history):
+                self._notify("Nothing to undo." if step < 0 else "Nothing to redo.")
+                return
+            try:
+                rendered = render(self._history[target], self._cache)
+            except Exception as err:  # noqa: BLE001 - shown in the widget
+                self._refuse(err, self._rendered)
+                return
+            self._cursor = target
+            self._show(rendered)
+            self._notify("")
 
     def _show(self, rendered: Rendered) -> None:
         self._rendered = rendered
@@ -262,7 +323,8 @@ class Explorer(widgets.VBox):
             self._pickers.show(rendered)
             for editor in self._editors:
                 editor.show(rendered)
-            self._steps.show(rendered)
+            self._steps.show(rendered, can_undo=self._cursor > 0,
+                             can_redo=self._cursor < len(self._history) - 1)
             self._measures.value = measures_html(
                 rendered.table, rendered.measures, rendered.tests,
                 rendered.diagnostics.warnings, rendered.left_out,
@@ -272,6 +334,14 @@ class Explorer(widgets.VBox):
             self._record.follow(rendered)
         finally:
             self._syncing = False
+
+    def _open_tab(self) -> None:
+        """Draw the tab just opened; a failure is a message, never a traceback."""
+        with self._lock:
+            try:
+                self._show_sections()
+            except Exception as err:  # noqa: BLE001 - shown in the widget
+                self._refuse(err)
 
     def _show_sections(self) -> None:
         """Draw the visible section; hidden ones are drawn when their tab is opened."""
@@ -305,9 +375,42 @@ class Explorer(widgets.VBox):
         """The coding steps applied since counting (core step objects, oldest first)."""
         return self.table.steps[self.table.initial_steps:]
 
-    def _edit(self, kind: str, axis: str, labels: tuple) -> None:
-        variable = self.state.row if _axis(axis) == "rows" else self.state.col
-        self._propose(lambda s: s.with_edit(Edit(kind, variable, labels)), raise_errors=True)
+    @property
+    def codings(self) -> dict[str, tuple[Edit, ...]]:
+        """Every variable's coding, ``{column: (Edit, ...)}``, including variables not shown
+        now (picking one again restores its coding)."""
+        return dict(self.state.codings)
+
+    @property
+    def history(self) -> tuple[tuple[ExplorerState, ...], int]:
+        """The states in the history and the position of the one shown (undo moves it back,
+        redo forward)."""
+        return tuple(self._history), self._cursor
+
+    def _scripted(self, change: Callable[[], Callable[[ExplorerState], ExplorerState]]) -> None:
+        """Build a proposal (errors in the arguments are shown and raised) and make it."""
+        try:
+            proposal = change()
+        except Exception as err:
+            self._refuse(err)
+            raise
+        self._propose(proposal, raise_errors=True)
+
+    def _edit(self, kind: str, axis: str, labels: Any) -> None:
+        def build() -> Callable[[ExplorerState], ExplorerState]:
+            axis_ = _axis(axis)
+            getattr(self.table, kind)(axis_, labels)  # the core's own checks and messages
+            if kind == "merge":
+                normal = tuple(tuple(group) for group in labels)
+            elif kind == "exclude" and not pd.api.types.is_list_like(labels):
+                normal = (labels,)
+            else:
+                normal = tuple(labels)
+            variable = self.state.row if axis_ == "rows" else self.state.col
+            edit = Edit(kind, variable, normal)
+            return lambda s: s.with_edit(edit)
+
+        self._scripted(build)
 
     def merge(self, axis: str, groups: Sequence[Sequence[Hashable]]) -> None:
         """Merge groups of neighbouring categories, as :meth:`OrdinalTable.merge`.
@@ -316,7 +419,8 @@ class Explorer(widgets.VBox):
         ----------
         axis : {'rows', 'cols'}
         groups : list of lists of labels
-            E.g. ``[["10–20 km", "over 20 km"]]``.
+            E.g. ``[["10–20 km", "over 20 km"]]``; a flat list of labels is refused, as by
+            the core.
 
         Raises
         ------
@@ -324,12 +428,9 @@ class Explorer(widgets.VBox):
             If the merge is impossible (the message is also shown in the widget and the
             previous state kept).
         """
-        if isinstance(groups, (str, bytes)):
-            groups = [groups]
-        self._edit("merge", axis, tuple(
-            g if isinstance(g, (str, bytes)) else tuple(g) for g in groups))
+        self._edit("merge", axis, groups)
 
-    def exclude(self, axis: str, labels: Sequence[Hashable]) -> None:
+    def exclude(self, axis: str, labels: Sequence[Hashable] | Hashable) -> None:
         """Leave out the units in some categories, as :meth:`OrdinalTable.exclude`.
 
         Parameters
@@ -337,8 +438,7 @@ class Explorer(widgets.VBox):
         axis : {'rows', 'cols'}
         labels : label or list of labels
         """
-        self._edit("exclude", axis,
-                   (labels,) if isinstance(labels, (str, bytes)) else tuple(labels))
+        self._edit("exclude", axis, labels)
 
     def reorder(self, axis: str, labels: Sequence[Hashable]) -> None:
         """Put one variable's categories in a new order, as :meth:`OrdinalTable.reorder`.
@@ -347,25 +447,60 @@ class Explorer(widgets.VBox):
         ----------
         axis : {'rows', 'cols'}
         labels : list of labels
-            Every current category once.
+            Every current category once (a string is refused, as by the core).
         """
-        self._edit("reorder", axis, tuple(labels))
+        self._edit("reorder", axis, labels)
+
+    def remove_step(self, index: int) -> None:
+        """Take back one step of the shown pair (numbered as in :attr:`steps`, from 0); the
+        variable's other steps are replayed without it.
+
+        Raises
+        ------
+        ValueError
+            If a later step depends on it (e.g. merges a category it created): the message
+            names that step, and nothing is changed.
+        """
+        self._scripted(lambda: lambda s: s.with_step_replaced(index, None, self._collected(s)))
+
+    def split(self, axis: str, label: Hashable) -> None:
+        """Split a merged category back into the categories it was made of (takes back the
+        merge that made it; other groups of the same merge stay merged)."""
+        def build() -> Callable[[ExplorerState], ExplorerState]:
+            axis_ = _axis(axis)
+            return lambda s: s.with_merge_split(axis_, label, self._collected(s))
+
+        self._scripted(build)
+
+    def bring_back(self, axis: str, label: Hashable) -> None:
+        """Bring back a category left out by an exclusion of the shown pair."""
+        def build() -> Callable[[ExplorerState], ExplorerState]:
+            axis_ = _axis(axis)
+            return lambda s: s.with_brought_back(axis_, label, self._collected(s))
+
+        self._scripted(build)
 
     def undo(self) -> None:
-        """Take back the last coding step."""
-        self._propose(lambda s: s.undone(), raise_errors=True)
+        """Go back one entry in the history (any change: pickers, roles, coding, view)."""
+        self._walk(-1)
+
+    def redo(self) -> None:
+        """Go forward one entry in the history, after an undo."""
+        self._walk(1)
 
     def reset(self) -> None:
-        """Take back every coding step."""
-        self._propose(lambda s: s.reset(), raise_errors=True)
+        """Take back every variable's coding; this is a change like any other, so undo
+        brings the codings back."""
+        self._propose(lambda s: s.collected(), raise_errors=True)
 
     def swap(self) -> None:
         """Exchange the row and column variables (steps follow their variables)."""
         self._propose(lambda s: s.swapped(), raise_errors=True)
 
     def set_variables(self, row: str | None = None, col: str | None = None) -> None:
-        """Choose the row and/or column variable; steps on variables no longer shown are
-        dropped."""
+        """Choose the row and/or column variable; every variable keeps its coding, and a
+        variable picked again shows its coding again. A variable that cannot be used leaves
+        the state as it was, with a message."""
         self._propose(lambda s: s.with_variables(row or s.row, col or s.col), raise_errors=True)
 
     def set_view(self, **choices: Any) -> None:
@@ -374,21 +509,44 @@ class Explorer(widgets.VBox):
         column label) pair for the pair view, or None)."""
         self._propose(lambda s: s.with_view(**choices), raise_errors=True)
 
-    def to_code(self, data_name: str = "df") -> str:
+    def to_code(self, data_name: str = "df", all_variables: bool = False) -> str:
         """Python that rebuilds the current table and measures from the raw frame.
 
         Parameters
         ----------
         data_name : str
             Name of the frame in the reader's notebook.
+        all_variables : bool
+            Also rebuild the coding of every other coded variable (each in a table beside
+            one of the shown variables), collected in ``tables``.
 
         Returns
         -------
         str
             Runs as printed given ``data_name``; it defines ``table``, ``measures`` and
-            ``coded`` (the two columns with the current coding).
+            ``coded`` (the two columns with the current coding; with ``all_variables``, every
+            coded column).
         """
-        return code_snippet(self.table, data_name, records=has_records(self._cache.data))
+        records = has_records(self._cache.data)
+        code = code_snippet(self.table, data_name, records=records)
+        others = [v for v in self.state.codings if v not in (self.state.row, self.state.col)]
+        if not all_variables or not others:
+            return code
+        lines = [code, "tables = {}  # the other coded variables, each in a table of its own"]
+        for variable in others:
+            partner = self.state.col if variable != self.state.col else self.state.row
+            table = render(self.state.with_variables(variable, partner), self._cache).table
+            built = table.to_code(data_name).splitlines()
+            start = next(k for k, line in enumerate(built) if line.startswith("table = "))
+            built[start] = f"tables[{variable!r}] = " + built[start][len("table = "):]
+            lines += [line for line in built if not line.startswith("measures = ")]
+        if records:
+            columns = [self.state.row, self.state.col, *others]
+            lines.append(
+                f"coded = rankfold.apply_steps({data_name}[{columns!r}], [*table.steps, *(\n"
+                "    s for name, t in tables.items() for s in t.steps if s.variable == name)])"
+            )
+        return "\n".join(lines) + "\n"
 
     def wait(self, timeout: float | None = None) -> None:
         """Wait until a count started from the pickers (for a Dask, polars or DuckDB source)

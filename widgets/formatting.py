@@ -6,7 +6,8 @@ import html
 import math
 from collections.abc import Hashable, Sequence
 
-__all__ = ["amount", "estimate", "interval", "p_value", "text", "signed_amount", "shared_note"]
+__all__ = ["amount", "sample_size", "estimate", "interval", "p_value", "text", "signed_amount",
+           "shared_note"]
 
 DASH = "–"
 
@@ -48,6 +49,33 @@ def amount(value: float) -> str:
     if float(value).is_integer():
         return f"{value:,.0f}"
     return f"{value:,.1f}"
+
+
+def sample_size(total: float, weighted: bool, respondents: float | None = None) -> str:
+    """How many units a table holds, said so that a weighted total, the number of respondents
+    and an effective sample size cannot be confused.
+
+    Parameters
+    ----------
+    total : float
+        The table's total (a sum of weights when ``weighted``).
+    weighted : bool
+        Whether ``total`` is a sum of weights.
+    respondents : float, optional
+        Records behind a weighted total (known for sampling weights).
+
+    Returns
+    -------
+    str
+        ``"n = 1,204"``, ``"weighted total 208.6"`` or ``"weighted total 208.6 from 300
+        respondents"``.
+    """
+    if not weighted:
+        return f"n = {amount(total)}"
+    shown = f"weighted total {amount(total)}"
+    if respondents is not None:
+        shown += f" from {amount(respondents)} respondents"
+    return shown
 
 
 def signed_amount(value: float) -> str:

@@ -113,7 +113,8 @@ def measures_html(
         f"<td>{formatting.p_value(chi.p_value)}</td>"
         f'<td class="rankfold-note">{formatting.text(chi.note)}</td></tr>'
     )
-    counted = [f"n = {formatting.amount(table.n)}"]
+    respondents = None if table.records is None else float(table.records.sum())
+    counted = [formatting.sample_size(table.n, bool(table.weight), respondents)]
     if left_out:
         counted.append(f"{formatting.amount(left_out)} left out by exclusions")
     if table.n_missing:

@@ -153,9 +153,11 @@ class Rendered:
 def _check_usable(table: OrdinalTable) -> None:
     for labels, name in ((table.row_labels, table.row_name), (table.col_labels, table.col_name)):
         if len(labels) < 2:
+            which = f"a single category ({labels[0]})" if labels else "no category at all"
             raise ValueError(
-                f"That would leave {name!r} with a single category ({labels[0]}); an ordinal "
-                "measure needs at least two categories on each variable. Nothing was changed."
+                f"That would leave {name!r} with {which}; an ordinal measure needs at least two "
+                "categories on each variable (a column whose values are all missing has none). "
+                "Nothing was changed."
             )
     if not table.n > 0:
         raise ValueError(

@@ -475,13 +475,22 @@ class SweepSection:
             for axis in ("rows", "cols") if any(len(g) > 1 for g in groups[axis])
         ]
 
+        kept = (*swept.kept, *merges)
+
         def recode(state):
-            state = state.reset()
-            for edit in (*swept.kept, *merges):
-                state = state.with_edit(edit)
+            for variable in names.values():
+                state = state.with_coding(
+                    variable, tuple(e for e in kept if e.variable == variable))
             return state
 
-        self._propose(recode)
+        # Exclusions and new orders that name a merged category cannot be replayed on the
+        # swept table: say which ones the coding leaves behind.
+        lost = [e for e in self._rendered.state.edits if e.kind != "merge" and e not in kept]
+        if self._propose(recode) and lost:
+            self._notify(
+                "Applied the coding; these steps named merged categories and could not be "
+                "replayed on it, so they were taken back (undo restores them): "
+                + "; ".join(e.describe() for e in lost) + ".")
 
     def _apply_suggestion(self) -> None:
         found = self._swept.suggestion if self._swept is not None else None

@@ -12,6 +12,7 @@ measure works from its counts.
 from __future__ import annotations
 
 import threading
+import time
 from collections.abc import Callable, Hashable, Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import Any
@@ -131,8 +132,8 @@ def fixed_table(table: OrdinalTable, state: ExplorerState) -> OrdinalTable:
 class BackgroundCount:
     """Counts a new pair of variables in a worker thread, with a progress bar meanwhile.
 
-    Only the latest request reports back: choosing again while a count runs makes the earlier
-    result (cached all the same) arrive silently.
+    Every count reports back when it ends (choosing again while one runs starts another; each
+    one's proposal lands in turn), so no choice made meanwhile is lost.
 
     Attributes
     ----------
@@ -145,12 +146,11 @@ class BackgroundCount:
         self.widget = widgets.HTML()
         self.widget.add_class("rankfold-counting")
         self._lock = threading.Lock()
-        self._latest = 0
-        self._thread: threading.Thread | None = None
+        self._running: list[threading.Thread] = []
 
     def start(self, state: ExplorerState, count: Callable[[ExplorerState], Any], data: object,
-              done: Callable[[ExplorerState, Exception | None], None]) -> None:
-        """Run ``count(state)`` in a thread, then ``done(state, error)`` if still the latest.
+              done: Callable[[Exception | None], None]) -> None:
+        """Run ``count(state)`` in a thread, then ``done(error)``.
 
         Parameters
         ----------
@@ -161,34 +161,46 @@ class BackgroundCount:
         data : object
             The source, to name its engine in the progress line.
         done : callable
-            Called from the worker thread with the state and the error raised, if any.
+            Called from the worker thread with the error raised, if any (None on success);
+            it proposes the change again, to the state current by then.
         """
-        with self._lock:
-            self._latest += 1
-            ticket = self._latest
         what = f"{state.row} × {state.col}" + (f" by {state.control}" if state.control else "")
         self.widget.value = (
             f'{_BAR_STYLE}<div role="status" aria-live="polite">Counting '
             f"{formatting.text(what)} with {_ENGINE_NAMES[engine_name(data)]}; the notebook "
             'stays free meanwhile.<div class="rankfold-counting-bar"></div></div>'
         )
-        self._thread = threading.Thread(target=self._run, args=(ticket, state, count, done),
-                                        name="rankfold-count", daemon=True)
-        self._thread.start()
+        thread = threading.Thread(target=self._run, args=(state, count, done),
+                                  name="rankfold-count", daemon=True)
+        with self._lock:
+            self._running.append(thread)
+        thread.start()
 
-    def _run(self, ticket: int, state: ExplorerState, count: Callable, done: Callable) -> None:
+    def _run(self, state: ExplorerState, count: Callable, done: Callable) -> None:
         error = None
         try:
             count(state)
         except Exception as err:  # noqa: BLE001 - reported in the widget by ``done``
             error = err
-        with self._lock:
-            latest = ticket == self._latest
-        if latest:
-            self.widget.value = ""
-            done(state, error)
+        try:
+            done(error)
+        finally:
+            with self._lock:
+                self._running.remove(threading.current_thread())
+                idle = not self._running
+            if idle:
+                self.widget.value = ""
 
     def wait(self, timeout: float | None = None) -> None:
-        """Block until the running count (if any) has reported back."""
-        if self._thread is not None:
-            self._thread.join(timeout)
+        """Block until every running count (and any count its result started) has reported
+        back, or ``timeout`` seconds have passed."""
+        deadline = None if timeout is None else time.monotonic() + timeout
+        while True:
+            with self._lock:
+                running = list(self._running)
+            if not running:
+                return
+            left = None if deadline is None else max(0.0, deadline - time.monotonic())
+            running[0].join(left)
+            if deadline is not None and time.monotonic() >= deadline:
+                return

@@ -81,10 +81,12 @@ def level_heatmaps(table: OrdinalTable, colour_by: str,
         panel = heatmap_chart(figures, colour_by, table.row_name, table.col_name,
                               scale_max=shared)
         panel.background = alt.Undefined  # set once on the whole grid (concat requires it)
-        weighted = f" (sum of the weight {table.weight})" if table.weight else ""
+        level = table.control_table(label)
+        respondents = None if level.records is None else float(level.records.sum())
         panel.title = alt.Title(
             f"{table.control_name} = {label}",
-            subtitle=f"n = {formatting.amount(figures['count'].sum())}{weighted}")
+            subtitle=formatting.sample_size(float(figures["count"].sum()), bool(table.weight),
+                                            respondents))
         panels.append(panel)
     with warnings.catch_warnings():
         # Every panel declares the same click selection; Altair merges them into one, which

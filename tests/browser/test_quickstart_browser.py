@@ -93,6 +93,47 @@ def test_quickstart_explorer_in_the_browser(open_notebook, tmp_path, request) ->
         Path(readme_path).parent.mkdir(parents=True, exist_ok=True)
         explorer.screenshot(path=readme_path)
 
+    # The notebook left three steps. Picking another row variable keeps the column
+    # variable's coding, and picking the first one again brings its own back.
+    steps = explorer.locator(".rankfold-step-text")
+    expect(steps).to_have_count(3)
+    left = [re.sub(r"^\d+\. ", "", text) for text in steps.all_inner_texts()]
+    row_picker = explorer.locator(".rankfold-row-picker select")
+    first_row = row_picker.input_value()
+    other_row = next(x for x in row_picker.locator("option").evaluate_all(
+        "os => os.map((o) => o.value)") if x not in (first_row, "service_rating"))
+    row_picker.select_option(other_row)
+    expect(explorer.locator(".rankfold-editor-rows")).to_contain_text(
+        f"down the side: {other_row}")
+    expect(steps).to_have_count(2)
+    row_picker.select_option(first_row)
+    expect(steps).to_have_count(3)
+    assert [re.sub(r"^\d+\. ", "", t) for t in steps.all_inner_texts()] == left
+
+    # Undo and redo a picker change (the history holds every change, pickers included).
+    row_picker.select_option(other_row)
+    expect(steps).to_have_count(2)
+    explorer.locator(".rankfold-undo").click()
+    expect(row_picker).to_have_value(first_row)
+    expect(steps).to_have_count(3)
+    explorer.locator(".rankfold-redo").click()
+    expect(row_picker).to_have_value(other_row)
+    expect(explorer.locator(".rankfold-editor-rows")).to_contain_text(
+        f"down the side: {other_row}")
+    explorer.locator(".rankfold-undo").click()
+    expect(row_picker).to_have_value(first_row)
+    expect(steps).to_have_count(3)
+
+    # Remove the middle step with its own button: the other two are replayed without it.
+    explorer.locator(".rankfold-step").nth(1).locator(".rankfold-remove-step").click()
+    expect(steps).to_have_count(2)
+    assert [re.sub(r"^\d+\. ", "", t) for t in steps.all_inner_texts()] == [left[0], left[2]]
+    expect(explorer.locator(".rankfold-message-error")).to_have_count(0)
+    kept = (rankfold.table(rankfold.demo.transit_survey(), first_row, "service_rating")
+            .merge("rows", [["10–20 km", "over 20 km"]]).merge("cols", [["very poor", "poor"]]))
+    expect(explorer.locator("td.rankfold-estimate[data-measure='gamma']")).to_have_text(
+        shown(kept.measures().loc["gamma", "estimate"]))
+
     # Back to the table as collected, coloured by counts (the notebook's cells left exclusions,
     # merges and another colouring in place), so the expected numbers follow from the page.
     reset = explorer.locator(".rankfold-reset")
@@ -119,7 +160,7 @@ def test_quickstart_explorer_in_the_browser(open_notebook, tmp_path, request) ->
         f".rankfold-editor-cols .rankfold-merge-toggle[title='Merge {upper} and {lower}']"
     ).click()
     table = collected.merge("cols", [[upper, lower]])
-    expect(explorer.locator(".rankfold-step-list li")).to_have_count(1)
+    expect(explorer.locator(".rankfold-step")).to_have_count(1)
     expect(explorer.locator(COUNT_CELLS)).to_have_count(table.shape[0] * table.shape[1])
     expect(explorer.locator(".rankfold-message-error")).to_have_count(0)
 
