@@ -65,9 +65,11 @@ class ChartPane:
         CSS class of the pane, for browser tests and styling.
     on_click : callable, optional
         Called with the clicked datum's fields (a dict) when the chart declares a point
-        selection named :data:`CLICK`.
+        selection named ``selection``.
     placeholder : str
         HTML shown while there is no chart.
+    selection : str
+        Name of the point selection clicks come from (default :data:`CLICK`).
     """
 
     def __init__(
@@ -75,7 +77,9 @@ class ChartPane:
         css_class: str,
         on_click: Callable[[dict[str, Any]], None] | None = None,
         placeholder: str = "",
+        selection: str = CLICK,
     ) -> None:
+        self._selection = selection
         self._chart = _offline_chart_class()(None, embed_options=_EMBED_OPTIONS)
         self._placeholder = widgets.HTML(placeholder)
         self.widget = widgets.Box([self._placeholder])
@@ -106,10 +110,11 @@ class ChartPane:
         return self._chart.spec
 
     def _clicked(self, change: dict) -> None:
-        selection = change["new"].get(CLICK)
+        selection = change["new"].get(self._selection)
         if not selection:
             return
-        points = PointSelection.from_vega(CLICK, selection["value"], selection["store"]).value
+        points = PointSelection.from_vega(self._selection, selection["value"],
+                                          selection["store"]).value
         # A new chart starts with an empty selection: that is not a click.
         if points:
             self._on_click(points[0])

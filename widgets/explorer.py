@@ -74,6 +74,7 @@ from .computation_view import ComputationSection
 from .export import ExportSection, code_snippet, save_chart
 from .heatmap import HeatmapSection
 from .measures_panel import measures_html
+from .overview_view import AllPairsSection
 from .pair_view import PairSection
 from .pickers import VariablePickers
 from .render import Rendered, TableCache, render
@@ -100,6 +101,7 @@ SECTIONS: list[tuple[str, Callable[[Callable, Callable], Any]]] = [
     ("Export", ExportSection),
     ("Within each level", WithinLevelsSection),
     ("How it is computed", ComputationSection),
+    ("All pairs", AllPairsSection),
 ]
 
 _STYLE = """<style>
