@@ -140,3 +140,22 @@ def test_too_many_codings_give_a_message_not_a_run(survey, monkeypatch):
     section = open_codings(explorer)
     assert "too many to sweep here" in section._summary.value
     assert section._run.layout.display == "none" and section._swept is None
+
+
+def test_codings_whose_change_exceeds_its_noise_are_ringed():
+    # reference: the paired change of one coding computed on its own by compare_measures
+    from rankfold.widgets.sweep_view import BEYOND, _point_data, swept_codings
+
+    df = rankfold.demo.transit_survey()
+    t = rankfold.table(df, "trip_length", "service_rating",
+                       exclude={"service_rating": ["no answer"]})
+    swept = swept_codings(t)
+    frame = swept.frame
+    data = _point_data(frame, {"gamma": "gamma"}, np.arange(len(frame), dtype=float),
+                       np.ones(len(frame), dtype=bool), [])
+    for k in (0, 5, 40, len(frame) - 2):
+        row = frame.iloc[k]
+        coded = rankfold.apply_coding(t, int(row["row_cuts"]), int(row["col_cuts"]))
+        found = rankfold.compare_measures(t, coded).loc["gamma"]
+        expected = abs(found["change"]) > 1.959964 * found["change_se"]
+        assert bool(data.loc[k, f"gamma{BEYOND}"]) == bool(expected)

@@ -136,7 +136,7 @@ def swept_codings(table: OrdinalTable, kept: tuple = (),
     """
     measures = (*DEFAULT_SWEEP_MEASURES, *LATENT_MEASURES,
                 *(("partial_gamma",) if table.control_name else ()))
-    frame = rankfold.sweep(table, measures=measures, progress=progress)
+    frame = rankfold.sweep(table, measures=measures, progress=progress, changes=True)
     return SweptCodings(table, kept, frame, rankfold.suggest_collapsing(table))
 
 
@@ -176,6 +176,19 @@ def _marked_rows(frame: pd.DataFrame, marked: dict) -> list[tuple[str, int]]:
     return found
 
 
+#: Suffix of the data field that says a coding's change exceeds its noise.
+BEYOND = "__beyond_noise"
+
+
+def _beyond_noise(frame: pd.DataFrame, measure: str) -> np.ndarray:
+    """Codings whose change from the swept table exceeds 1.96 paired standard errors."""
+    if f"{measure}_change_se" not in frame:
+        return np.zeros(len(frame), dtype=bool)
+    change, se = frame[f"{measure}_change"].to_numpy(), frame[f"{measure}_change_se"].to_numpy()
+    with np.errstate(invalid="ignore"):
+        return np.abs(change) > 1.959964 * se
+
+
 def _point_data(frame, labels, x, meets, marks) -> pd.DataFrame:
     """One wide row per coding (estimates under the measure keys), then the marked ones."""
     wide = pd.DataFrame({
@@ -185,6 +198,7 @@ def _point_data(frame, labels, x, meets, marks) -> pd.DataFrame:
         "cols": frame["col_groups"].astype(str).to_numpy(),
         "row_cuts": frame["row_cuts"].to_numpy(), "col_cuts": frame["col_cuts"].to_numpy(),
         **{m: np.round(frame[m].to_numpy(), 4) for m in labels},
+        **{f"{m}{BEYOND}": _beyond_noise(frame, m).astype(int) for m in labels},
     })
     chosen = wide.iloc[[k for _, k in marks]].assign(kind="mark", role=[r for r, _ in marks])
     return pd.concat([wide, chosen], ignore_index=True)
@@ -261,6 +275,15 @@ def sweep_chart(
                     tooltip=[*tooltip, alt.Tooltip("rule:N", title="sparse cells")])
             .add_params(pick)
         )
+        # a dark ring: this coding's change from the swept table exceeds its noise (paired
+        # delta method, |change| > 1.96 SE)
+        parts.append(
+            base.transform_calculate(beyond=f"datum[datum.key + '{BEYOND}']")
+            .transform_filter("datum.kind == 'coding' && datum.beyond == 1 && "
+                              "isValid(datum.estimate)")
+            .mark_point(filled=False, size=60, strokeWidth=1.2, color="#222222")
+            .encode(x=x_enc, y=alt.Y("estimate:Q", scale=y_scale))
+        )
     else:
         data = _range_data(frame, labels, x, meets, marks)
         ranged = base.transform_filter("datum.kind == 'range' && isValid(datum.low)")
@@ -301,7 +324,8 @@ def sweep_chart(
         .resolve_scale(y="independent")
         .properties(title=alt.Title(
             "Every coding by merging neighbouring categories",
-            subtitle=f"{len(frame):,} codings; green: Cochran's rule met (right of each strip)"))
+            subtitle=f"{len(frame):,} codings; green: Cochran's rule met (right of each strip)"
+                     + ("; ringed: changed by more than its noise" if points else "")))
         .configure(background="#ffffff")
     )
 
