@@ -12,7 +12,8 @@ from rankfold.widgets.charts import PAIR_CLICK
 
 
 @pytest.fixture()
-def opened(df):
+def opened(df, monkeypatch):
+    monkeypatch.setattr(overview_view, "AUTO_FILL", False)  # each test starts the filling
     ex = rankfold.explore(df, "trip_length", "service_rating")
     titles = [title for title, _ in explorer_module.SECTIONS]
     ex._tabs.selected_index = titles.index("All pairs")
@@ -66,3 +67,12 @@ def test_cancel_stops_filling_in(df, opened, monkeypatch):
     section.fill_ranges(wait=True)
     assert section.frame["coding_min"].notna().sum() == 1
     assert section._fill.layout.display is None  # the button is offered again
+
+
+def test_opening_the_tab_starts_filling_in(df, monkeypatch):
+    ex = rankfold.explore(df, "trip_length", "service_rating")
+    titles = [title for title, _ in explorer_module.SECTIONS]
+    ex._tabs.selected_index = titles.index("All pairs")
+    section = next(s for s in ex._sections if isinstance(s, overview_view.AllPairsSection))
+    section.fill_ranges(wait=True)  # waits for the filling the tab started
+    assert section.frame["coding_min"].notna().any()

@@ -3,8 +3,9 @@
 The matrix comes from :func:`rankfold.overview` on the explorer's frame (with its control
 variable, weight and orders), computed when the tab is first opened and again only when those
 change. The coding ranges (how far each pair's estimate moves across the codings that meet
-Cochran's rule) are the slow part: a button fills them in the background, pair by pair, with a
-progress bar and a cancel button, and the matrix redraws as they arrive.
+Cochran's rule) are the slow part: they fill in the background as soon as the map is shown,
+pair by pair, with a progress bar and a cancel button (and a button to start again), and the
+matrix redraws as they arrive.
 """
 
 from __future__ import annotations
@@ -28,6 +29,8 @@ __all__ = ["AllPairsSection", "overview_summary"]
 
 #: Seconds between redraws of the matrix while coding ranges arrive.
 REDRAW_EVERY = 1.0
+#: Start filling in the coding ranges as soon as a new map is shown (the user may cancel).
+AUTO_FILL = True
 
 CAUTION = (
     "With many pairs some look strong by chance: compare the adjusted p-values (Holm), not "
@@ -125,6 +128,10 @@ class AllPairsSection:
                 weight_kind=state.weight_kind, order=dict(state.order) or None)
             self._key = key
             self._fill.layout.display = None
+            self._draw()
+            if AUTO_FILL:
+                self.fill_ranges()
+            return
         self._draw()
 
     def _draw(self) -> None:
@@ -142,7 +149,11 @@ class AllPairsSection:
 
     def fill_ranges(self, wait: bool = False) -> None:
         """Fill in every pair's coding range in the background (``wait=True``: at once)."""
-        if self.frame is None or (self._worker is not None and self._worker.is_alive()):
+        if self._worker is not None and self._worker.is_alive():
+            if wait:
+                self._worker.join()
+            return
+        if self.frame is None:
             return
         self._cancel.clear()
         self._worker = threading.Thread(target=self._ranges, daemon=True)
