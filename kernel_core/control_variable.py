@@ -18,12 +18,12 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 import pandas as pd
-from scipy import special
 
 from .concordance import cell_concordance
 from .independence import _resolve_scores
 from .measure_table import inference_frame, interval_quantile, sampling_note
 from .ordinal_measures import Sampling, delta_variance, ordinal_measure_arrays
+from .scipy_special import special
 
 #: How the level sizes arose, for partial gamma's standard error (see partial_gamma_arrays).
 CONTROL_TOTALS = ("random", "fixed")

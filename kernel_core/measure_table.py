@@ -6,10 +6,10 @@ from collections.abc import Sequence
 
 import numpy as np
 import pandas as pd
-from scipy import special
 
 from .ordinal_measures import ORDINAL_MEASURES, Sampling, delta_variance, ordinal_measure_arrays
 from .polychoric import polychoric
+from .scipy_special import special
 from .two_by_two import two_by_two_measures
 
 __all__ = [
