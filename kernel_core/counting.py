@@ -101,7 +101,8 @@ def raw_codes(series: pd.Series) -> RawCodes:
     dtype = series.dtype
     kind = order_kind(dtype)
     if isinstance(dtype, pd.CategoricalDtype):
-        return RawCodes(np.asarray(series.cat.codes), 1, list(dtype.categories), kind, True)
+        # the Categorical's own codes (``.cat.codes`` would copy them)
+        return RawCodes(series.array.codes, 1, list(dtype.categories), kind, True)
     if isinstance(dtype, np.dtype) and dtype.kind == "b":
         return RawCodes(series.to_numpy().view(np.uint8), 1, [False, True], kind)
     if isinstance(dtype, np.dtype) and dtype.kind in "iu" and dtype != np.uint64 and len(series):
@@ -255,10 +256,11 @@ def _chunks(length: int) -> list[slice]:
 
 def _raw_cells(columns: Sequence[RawCodes], strides: Sequence[int], part: slice) -> np.ndarray:
     """Each record's raw code combination ``sum (values + offset) * stride``, computed in the
-    narrowest signed type that holds every combination: the sum lies in ``0 .. size - 1``, so
-    wrapping around on the way (values cast down unsafely) does not change it."""
+    narrowest signed type that holds every combination and the values as they are: the sum
+    lies in ``0 .. size - 1``, so wrapping around on the way does not change it."""
     size = int(np.prod([column.size for column in columns]))
-    narrow = np.min_scalar_type(-size)
+    widest = max(column.values.dtype.itemsize for column in columns)
+    narrow = np.dtype(f"i{max(np.min_scalar_type(-size).itemsize, widest)}")  # no casting
     first, *others = zip(columns, strides, strict=True)
     flat = np.multiply(first[0].values[part], first[1], dtype=narrow, casting="unsafe")
     shift = first[0].offset * first[1]
@@ -283,6 +285,7 @@ def _count_cells(columns: Sequence[RawCodes], strides: Sequence[int], size: int,
     ``fractional``): an array of shape (size,) or (4, size)."""
     records = np.zeros(size, dtype=np.int64)
     sums = np.zeros((3, size)) if weights is not None else None
+    scratch = np.empty(BLOCK) if fractional else None
     for part in _chunks(len(columns[0].values)):
         flat = _raw_cells(columns, strides, part)
         records += np.bincount(flat, minlength=size)
@@ -293,9 +296,9 @@ def _count_cells(columns: Sequence[RawCodes], strides: Sequence[int], size: int,
         if squares:
             sums[1] += np.bincount(flat, w * w, minlength=size)
         if fractional:
-            broken = np.floor(w) != w
-            if broken.any():
-                sums[2] += np.bincount(flat[broken], minlength=size)
+            whole = np.floor(w, out=scratch[: len(w)]) == w
+            if not whole.all():
+                sums[2] += np.bincount(flat[~whole], minlength=size)
     return records if sums is None else np.vstack([records, sums])
 
 
@@ -413,7 +416,11 @@ def _weights(data: pd.DataFrame, weight: str) -> np.ndarray:
 def _weight_values(data: pd.DataFrame, weight: str) -> tuple[np.ndarray, tuple[int, int, int]]:
     """The weight column as floats, and its missing, infinite and negative values (counted
     only when its smallest or largest value shows there are some)."""
-    values = pd.to_numeric(data[weight], errors="coerce").to_numpy(dtype=float)
+    column = data[weight]
+    if isinstance(column.dtype, np.dtype) and column.dtype.kind in "fiub":
+        values = column.to_numpy(dtype=float, copy=False)  # no copy of a float64 column
+    else:
+        values = pd.to_numeric(column, errors="coerce").to_numpy(dtype=float)
     if not len(values) or (np.min(values) >= 0 and np.max(values) < np.inf):  # NaN fails both
         return values, (0, 0, 0)
     # -inf counts as infinite only, so the three counts add up to the rows at fault
