@@ -18,12 +18,12 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 import pandas as pd
-from scipy import special
 
 from .concordance import cell_concordance
 from .independence import _resolve_scores
-from .measure_table import inference_frame, interval_quantile, sampling_note
+from .measure_table import inference_frame, interval_quantile, measures_frame, sampling_note
 from .ordinal_measures import Sampling, delta_variance, ordinal_measure_arrays
+from .scipy_special import special
 
 #: How the level sizes arose, for partial gamma's standard error (see partial_gamma_arrays).
 CONTROL_TOTALS = ("random", "fixed")
@@ -146,7 +146,18 @@ def control_measures(table: OrdinalTable, confidence: float = 0.95) -> pd.DataFr
         effective size). ``.xs(label, level=0)`` gives one level's measures.
     """
     _require_control(table, "control_measures")
-    frames = [single_level(table, label).measures(confidence) for label in table.control_labels]
+    levels = [single_level(table, label) for label in table.control_labels]
+    sampling = Sampling()
+    if table.squared_weights is not None:
+        sampling = Sampling(table.squared_weights, table.records.sum(axis=(1, 2)))
+    batched = ordinal_measure_arrays(np.asarray(table.cells, dtype=float), sampling)
+    frames = [
+        measures_frame(level._pooled(), sampling=level._sampling(), confidence=confidence,
+                       extra_note=level._non_substantive_note(),
+                       arrays={key: {f: v[k] for f, v in found.items()}
+                               for key, found in batched.items()})
+        for k, level in enumerate(levels)
+    ]
     return pd.concat(
         frames, keys=pd.Index(list(table.control_labels), dtype=object),
         names=[table.control_name, "measure"],

@@ -67,6 +67,141 @@ def order_needed(name: str, found: Sequence[Hashable]) -> str:
     )
 
 
+# --- coding: each column type's fast path ------------------------------------------------
+
+#: Integer columns whose values span fewer numbers than this are coded by their offset from the
+#: smallest value (no copy); wider ones go through ``pandas.factorize``.
+OFFSET_SPAN = 1 << 12
+
+
+@dataclass(frozen=True)
+class RawCodes:
+    """A column read as small whole numbers, without a copy where its type allows.
+
+    ``values[i] + offset`` is record i's raw code in ``0 .. size - 1``: 0 means missing and
+    ``k`` stands for ``uniques[k - 1]``. ``all_categories``: the uniques are a Categorical's
+    categories, kept even when unused; otherwise only the values found become categories.
+    """
+
+    values: np.ndarray
+    offset: int
+    uniques: list
+    kind: str | None
+    all_categories: bool = False
+
+    @property
+    def size(self) -> int:
+        return len(self.uniques) + 1
+
+
+def raw_codes(series: pd.Series) -> RawCodes:
+    """Code a column by its type: a Categorical by its own codes, booleans as a uint8 view,
+    integers of a narrow range by their offset from the smallest, text through a Categorical
+    (compact codes); anything else by ``pandas.factorize``."""
+    dtype = series.dtype
+    kind = order_kind(dtype)
+    if isinstance(dtype, pd.CategoricalDtype):
+        # the Categorical's own codes (``.cat.codes`` would copy them)
+        return RawCodes(series.array.codes, 1, list(dtype.categories), kind, True)
+    if isinstance(dtype, np.dtype) and dtype.kind == "b":
+        return RawCodes(series.to_numpy().view(np.uint8), 1, [False, True], kind)
+    if isinstance(dtype, np.dtype) and dtype.kind in "iu" and dtype != np.uint64 and len(series):
+        values = series.to_numpy()
+        low, high = int(values.min()), int(values.max())
+        if high - low < OFFSET_SPAN and -(1 << 31) < low and high < (1 << 31):
+            return RawCodes(values, 1 - low, list(range(low, high + 1)), kind)
+    if pd.api.types.is_object_dtype(dtype) or pd.api.types.is_string_dtype(dtype):
+        try:  # compact codes (int8 for few values); the categories are the values found
+            text = pd.Categorical(series)
+            return RawCodes(np.asarray(text.codes), 1, list(text.categories), kind)
+        except TypeError:  # values that cannot be sorted together
+            pass
+    codes, uniques = pd.factorize(series, use_na_sentinel=True)
+    return RawCodes(np.asarray(codes), 1, list(uniques), kind)
+
+
+@dataclass(frozen=True)
+class ColumnRule:
+    """Raw codes to category positions: ``lookup[raw code]`` (-1: dropped) and the labels."""
+
+    lookup: np.ndarray
+    labels: tuple
+    n_missing: int
+    steps: tuple[Step, ...]
+
+
+def column_rule(
+    raw: RawCodes,
+    found: np.ndarray,
+    name: str,
+    axis: str,
+    order: Sequence[Hashable] | None,
+    exclude: Sequence[Hashable] | None,
+    dropna: bool,
+    nominal: bool = False,
+) -> ColumnRule:
+    """Apply the ordering rules of :func:`table` to one column, given the records found per
+    raw code (``found[0]``: missing values)."""
+    seen = np.asarray(found[1:]) > 0
+    uniques = [_python_scalar(u) for u, s in zip(raw.uniques, seen, strict=True)
+               if s or raw.all_categories]
+    excluded = list(exclude or [])
+    unknown_excluded = [x for x in excluded if x not in set(uniques) | set(order or [])]
+    if unknown_excluded:
+        raise ValueError(
+            f"exclude lists {unknown_excluded} for {name!r}, but the column has no such value; "
+            f"its values are {uniques[:20]}."
+        )
+    steps: list[Step] = []
+    if excluded:
+        steps.append(ExcludeStep(axis=axis, variable=name, labels=tuple(excluded)))
+    remaining = [x for x in uniques if x not in set(excluded)]
+    if order is not None:
+        order = [_python_scalar(x) for x in order]
+        if len(set(order)) != len(order):
+            raise ValueError(f"order for {name!r} lists a category twice: {order}.")
+        observed = [_python_scalar(u) for u, s in zip(raw.uniques, seen, strict=True) if s]
+        absent = [u for u in observed if u not in set(order) and u not in set(excluded)]
+        if absent:
+            raise ValueError(
+                f"order for {name!r} leaves out values found in the column: {absent}. "
+                "Add them to order= at their place, or list them in exclude=."
+            )
+        labels = [x for x in order if x not in set(excluded)]
+        origin = "given"
+    elif raw.kind == "declared":
+        labels, origin = remaining, "declared"
+    elif raw.kind == "numeric":
+        if len(remaining) > MAX_NUMERIC_LEVELS and not nominal:
+            raise ValueError(
+                f"Column {name!r} is numeric with {len(remaining)} distinct values; rankfold "
+                f"tabulates at most {MAX_NUMERIC_LEVELS}. Group it into ordered bands first, "
+                f"e.g. pd.cut(df[{name!r}], bins=5) or pd.qcut(df[{name!r}], q=5), and pass "
+                "the banded column."
+            )
+        labels, origin = sorted(remaining), "numeric"
+    elif nominal:
+        labels, origin = sorted(remaining, key=str), "sorted"
+    else:
+        raise ValueError(order_needed(name, remaining))
+    position = {label: k for k, label in enumerate(labels)}
+    n_missing = int(found[0])
+    missing_at = -1
+    missing_label = None
+    if not dropna and n_missing:
+        if MISSING_LABEL in position:
+            raise ValueError(
+                f"Column {name!r} already has a category {MISSING_LABEL!r}; fill missing values "
+                "with another label yourself, or use dropna=True."
+            )
+        labels = [*labels, MISSING_LABEL]
+        missing_at, n_missing, missing_label = len(labels) - 1, 0, MISSING_LABEL
+    lookup = np.array([missing_at, *(position.get(_python_scalar(u), -1) for u in raw.uniques)],
+                      dtype=np.intp)
+    steps.append(OrderStep(axis, name, tuple(labels), origin, missing_label))
+    return ColumnRule(lookup, tuple(labels), n_missing, tuple(steps))
+
+
 def code_column(
     series: pd.Series,
     name: str,
@@ -98,82 +233,89 @@ def code_column(
     -------
     CodedColumn
     """
-    if isinstance(series.dtype, pd.CategoricalDtype):
-        codes = np.asarray(series.cat.codes)  # kept compact (int8 for few categories)
-        uniques = [_python_scalar(x) for x in series.cat.categories]
-    else:
-        codes, uniques_index = pd.factorize(series, use_na_sentinel=True)
-        codes = np.asarray(codes)
-        uniques = [_python_scalar(x) for x in uniques_index]
-    kind = order_kind(series.dtype)
-    excluded = list(exclude or [])
-    unknown_excluded = [x for x in excluded if x not in set(uniques) | set(order or [])]
-    if unknown_excluded:
-        raise ValueError(
-            f"exclude lists {unknown_excluded} for {name!r}, but the column has no such value; "
-            f"its values are {uniques[:20]}."
-        )
-    steps: list[Step] = []
-    if excluded:
-        steps.append(ExcludeStep(axis=axis, variable=name, labels=tuple(excluded)))
-    remaining = [x for x in uniques if x not in set(excluded)]
-    if order is not None:
-        order = [_python_scalar(x) for x in order]
-        if len(set(order)) != len(order):
-            raise ValueError(f"order for {name!r} lists a category twice: {order}.")
-        observed = set(np.flatnonzero(np.bincount(codes[codes >= 0], minlength=len(uniques))))
-        absent = [
-            u
-            for k, u in enumerate(uniques)
-            if k in observed and u not in set(order) and u not in set(excluded)
-        ]
-        if absent:
-            raise ValueError(
-                f"order for {name!r} leaves out values found in the column: {absent}. "
-                "Add them to order= at their place, or list them in exclude=."
-            )
-        labels = [x for x in order if x not in set(excluded)]
-        origin = "given"
-    elif kind == "declared":
-        labels, origin = remaining, "declared"
-    elif kind == "numeric":
-        present = [u for k, u in enumerate(uniques) if u in set(remaining)]
-        if len(present) > MAX_NUMERIC_LEVELS and not nominal:
-            raise ValueError(
-                f"Column {name!r} is numeric with {len(present)} distinct values; rankfold "
-                f"tabulates at most {MAX_NUMERIC_LEVELS}. Group it into ordered bands first, "
-                f"e.g. pd.cut(df[{name!r}], bins=5) or pd.qcut(df[{name!r}], q=5), and pass "
-                "the banded column."
-            )
-        labels, origin = sorted(present), "numeric"
-    elif nominal:
-        labels, origin = sorted(remaining, key=str), "sorted"
-    else:
-        raise ValueError(order_needed(name, remaining))
-    position = {label: k for k, label in enumerate(labels)}
-    # code -1 (missing) picks the trailing -1; codes already in label order are kept as they are
-    lookup = np.array(
-        [position.get(u, -1) for u in uniques] + [-1], dtype=np.min_scalar_type(-len(labels) - 1)
-    )
-    missing_mask = codes < 0
-    n_missing = int(np.count_nonzero(missing_mask))
-    in_order = np.array_equal(lookup[:-1], np.arange(len(uniques)))
-    new_codes = codes if in_order else lookup[codes]
-    n_excluded = int(np.count_nonzero(new_codes < 0)) - n_missing
-    missing_label = None
-    if not dropna and n_missing:
-        if MISSING_LABEL in position:
-            raise ValueError(
-                f"Column {name!r} already has a category {MISSING_LABEL!r}; fill missing values "
-                "with another label yourself, or use dropna=True."
-            )
-        labels = [*labels, MISSING_LABEL]
-        new_codes = np.where(missing_mask, len(labels) - 1, new_codes)
-        n_missing, missing_label = 0, MISSING_LABEL
-    steps.append(OrderStep(axis, name, tuple(labels), origin, missing_label))
-    return CodedColumn(new_codes, tuple(labels), n_missing, n_excluded, tuple(steps))
+    raw = raw_codes(series)
+    found = _count_cells([raw], [1], raw.size)
+    rule = column_rule(raw, found, name, axis, order, exclude, dropna, nominal)
+    lookup = rule.lookup.astype(np.min_scalar_type(-len(rule.labels) - 1))
+    codes = np.empty(len(series), dtype=lookup.dtype)
+    for part in _chunks(len(series)):
+        codes[part] = lookup[np.add(raw.values[part], raw.offset, dtype=np.intp)]
+    n_excluded = int(found[1:][rule.lookup[1:] < 0].sum())
+    return CodedColumn(codes, rule.labels, rule.n_missing, n_excluded, rule.steps)
 
 
+# --- counting: raw code combinations, a block of records at a time ------------------------
+
+#: Records per block: numpy widens what it counts to int64, and blocks keep that copy small.
+BLOCK = 1 << 18
+
+
+def _chunks(length: int) -> list[slice]:
+    return [slice(start, start + BLOCK) for start in range(0, length, BLOCK)]
+
+
+def _raw_cells(columns: Sequence[RawCodes], strides: Sequence[int], part: slice) -> np.ndarray:
+    """Each record's raw code combination ``sum (values + offset) * stride``, computed in the
+    narrowest signed type that holds every combination and the values as they are: the sum
+    lies in ``0 .. size - 1``, so wrapping around on the way does not change it."""
+    size = int(np.prod([column.size for column in columns]))
+    widest = max(column.values.dtype.itemsize for column in columns)
+    narrow = np.dtype(f"i{max(np.min_scalar_type(-size).itemsize, widest)}")  # no casting
+    first, *others = zip(columns, strides, strict=True)
+    flat = np.multiply(first[0].values[part], first[1], dtype=narrow, casting="unsafe")
+    shift = first[0].offset * first[1]
+    for column, stride in others:
+        if stride == 1:
+            np.add(flat, column.values[part], out=flat, casting="unsafe")
+        else:
+            np.add(flat, np.multiply(column.values[part], stride, dtype=narrow, casting="unsafe"),
+                   out=flat, casting="unsafe")
+        shift += column.offset * stride
+    bits = 8 * narrow.itemsize
+    shift = (shift + (1 << (bits - 1))) % (1 << bits) - (1 << (bits - 1))  # the same, wrapped
+    np.add(flat, shift, out=flat, casting="unsafe")
+    return flat
+
+
+def _count_cells(columns: Sequence[RawCodes], strides: Sequence[int], size: int,
+                 weights: np.ndarray | None = None, squares: bool = False,
+                 fractional: bool = False) -> np.ndarray:
+    """Records per raw code combination; with ``weights`` also the sums of the weights, of
+    their squares (if ``squares``) and the records whose weight is not whole (if
+    ``fractional``): an array of shape (size,) or (4, size)."""
+    records = np.zeros(size, dtype=np.int64)
+    sums = np.zeros((3, size)) if weights is not None else None
+    scratch = np.empty(BLOCK) if fractional else None
+    for part in _chunks(len(columns[0].values)):
+        flat = _raw_cells(columns, strides, part)
+        records += np.bincount(flat, minlength=size)
+        if sums is None:
+            continue
+        w = weights[part]
+        sums[0] += np.bincount(flat, w, minlength=size)
+        if squares:
+            sums[1] += np.bincount(flat, w * w, minlength=size)
+        if fractional:
+            whole = np.floor(w, out=scratch[: len(w)]) == w
+            if not whole.all():
+                sums[2] += np.bincount(flat[~whole], minlength=size)
+    return records if sums is None else np.vstack([records, sums])
+
+
+def _count_lines(columns: Sequence[RawCodes], strides: Sequence[int], size: int,
+                 tally: Tally) -> np.ndarray:
+    """The same sums from a group-by result: each line stands for its records."""
+    flat = _raw_cells(columns, strides, slice(None))
+    records = np.zeros(size, dtype=np.int64)
+    np.add.at(records, flat, tally.records)  # integer sums: exact at any count
+    if tally.weight_sum is None:
+        return records
+    sums = np.zeros((3, size))
+    np.add.at(sums[0], flat, tally.weight_sum)
+    for k, per_line in ((1, tally.weight_square_sum), (2, tally.fractional)):
+        if per_line is not None:
+            np.add.at(sums[k], flat, per_line)
+    return np.vstack([records, sums])
 #: Keywords renamed in 0.2.0, with their new names.
 RENAMED_KEYWORDS = {"layer": "control"}
 
@@ -265,44 +407,84 @@ def check_weights(weight: str, bad_nan: int, bad_inf: int, bad_neg: int) -> None
 
 
 def _weights(data: pd.DataFrame, weight: str) -> np.ndarray:
-    values = pd.to_numeric(data[weight], errors="coerce").to_numpy(dtype=float)
+    """The weight column as floats; raises if a value is missing, infinite or negative."""
+    values, problems = _weight_values(data, weight)
+    check_weights(weight, *problems)
+    return values
+
+
+def _weight_values(data: pd.DataFrame, weight: str) -> tuple[np.ndarray, tuple[int, int, int]]:
+    """The weight column as floats, and its missing, infinite and negative values (counted
+    only when its smallest or largest value shows there are some)."""
+    column = data[weight]
+    if isinstance(column.dtype, np.dtype) and column.dtype.kind in "fiub":
+        values = column.to_numpy(dtype=float, copy=False)  # no copy of a float64 column
+    else:
+        values = pd.to_numeric(column, errors="coerce").to_numpy(dtype=float)
+    if not len(values) or (np.min(values) >= 0 and np.max(values) < np.inf):  # NaN fails both
+        return values, (0, 0, 0)
     # -inf counts as infinite only, so the three counts add up to the rows at fault
-    check_weights(
-        weight,
+    return values, (
         int(np.isnan(values).sum()),
         int(np.isinf(values).sum()),
         int((np.isfinite(values) & (values < 0)).sum()),
     )
-    return values
 
 
-def _kept(values: np.ndarray, keep: np.ndarray | None) -> np.ndarray:
-    return values if keep is None else values[keep]
+def _check_arguments(
+    row: str, col: str, control: str | None, weight: str | None, weight_kind: str,
+    order: Mapping | None, exclude: Mapping | None, non_substantive: Sequence[Hashable] | bool,
+) -> tuple[dict, dict, tuple | None]:
+    """Check the arguments of :func:`table`; return the orders, exclusions and extra flags."""
+    if weight_kind not in ("frequency", "sampling"):
+        raise ValueError(f"weight_kind must be 'frequency' or 'sampling'; got {weight_kind!r}.")
+    if weight_kind == "sampling" and weight is None:
+        raise ValueError("weight_kind='sampling' needs a weight column: pass weight='your_column'.")
+    if row is None or col is None:
+        raise ValueError(f"table needs a row and a col column; got row={row!r}, col={col!r}.")
+    options = {}
+    for what, given in (("order", order), ("exclude", exclude)):
+        if given is not None and not isinstance(given, Mapping):
+            raise ValueError(
+                f"{what}= must be a dict {{column: [labels]}}, e.g. {what}={{{row!r}: [...]}}; "
+                f"got {given!r}."
+            )
+        stray = [k for k in (given or {}) if k not in (row, col, control)]
+        if stray:
+            raise ValueError(f"{what}= names {stray}, which are not among row, col or control.")
+        options[what] = {k: label_list(v, f"{what}[{k!r}]") for k, v in (given or {}).items()}
+    if non_substantive is False:
+        extra_flags = None
+    elif non_substantive is True:
+        extra_flags = ()
+    else:
+        extra_flags = tuple(label_list(non_substantive, "non_substantive"))
+    return options["order"], options["exclude"], extra_flags
 
 
-def _bincount(cells_flat: np.ndarray, size: int, weights: np.ndarray | None = None) -> np.ndarray:
-    """``numpy.bincount`` a million records at a time: numpy widens what it counts to int64,
-    and slicing keeps that copy small whatever the number of records."""
-    out = np.zeros(size, dtype=np.int64 if weights is None else float)
-    for start in range(0, len(cells_flat), 1 << 20):
-        part = slice(start, start + (1 << 20))
-        out += np.bincount(
-            cells_flat[part], None if weights is None else weights[part], minlength=size
-        )
-    return out
+def _dropped(sums: np.ndarray, lookups: Sequence[np.ndarray], dropna: bool) -> tuple[int, int]:
+    """Records dropped for a missing value (raw code 0 in any role, with ``dropna``) and,
+    among the others, for an excluded category, from the records per raw combination."""
+    shape = sums.shape
+    missing = np.zeros(shape, dtype=bool)
+    dropped = np.zeros(shape, dtype=bool)
+    for axis, lookup in enumerate(lookups):
+        along = [1] * len(shape)
+        along[axis] = -1
+        if dropna:
+            missing |= (np.arange(shape[axis]) == 0).reshape(along)
+        dropped |= (lookup < 0).reshape(along)
+    return int(sums[missing].sum()), int(sums[dropped & ~missing].sum())
 
 
-def _rows_per_cell(cells_flat: np.ndarray, per_line: np.ndarray | None, size: int) -> np.ndarray:
-    """Data rows in each cell: one per line of a frame, or the rows a group-by line tallies."""
-    if per_line is None:
-        return _bincount(cells_flat, size)
-    rows = np.zeros(size, dtype=np.int64)
-    np.add.at(rows, cells_flat, per_line)  # integer sums: exact at any count
-    return rows
-
-
-def _rows_where(mask: np.ndarray, tally: Tally | None) -> int:
-    return int(mask.sum()) if tally is None else int(tally.records[mask].sum())
+def _cells(sums: np.ndarray, lookups: Sequence[np.ndarray], shape: tuple) -> np.ndarray:
+    """Sums per raw combination (row, col, control) gathered into cells of ``shape`` (K, I, J)."""
+    grids = np.meshgrid(*lookups, indexing="ij")
+    kept = np.logical_and.reduce([g >= 0 for g in grids])
+    cells = np.zeros(shape, dtype=sums.dtype)
+    r, c, *k = (g[kept] for g in grids)
+    np.add.at(cells, (k[0] if k else 0, r, c), sums[kept])
+    return cells
 
 
 def table(
@@ -379,30 +561,9 @@ def table(
     [[1, 1, 0], [0, 1, 1], [0, 0, 1]]
     """
     refuse_unknown_keywords("table", unknown)
-    if weight_kind not in ("frequency", "sampling"):
-        raise ValueError(f"weight_kind must be 'frequency' or 'sampling'; got {weight_kind!r}.")
-    if weight_kind == "sampling" and weight is None:
-        raise ValueError("weight_kind='sampling' needs a weight column: pass weight='your_column'.")
-    if row is None or col is None:
-        raise ValueError(f"table needs a row and a col column; got row={row!r}, col={col!r}.")
-    options = {}
-    for what, given in (("order", order), ("exclude", exclude)):
-        if given is not None and not isinstance(given, Mapping):
-            raise ValueError(
-                f"{what}= must be a dict {{column: [labels]}}, e.g. {what}={{{row!r}: [...]}}; "
-                f"got {given!r}."
-            )
-        stray = [k for k in (given or {}) if k not in (row, col, control)]
-        if stray:
-            raise ValueError(f"{what}= names {stray}, which are not among row, col or control.")
-        options[what] = {k: label_list(v, f"{what}[{k!r}]") for k, v in (given or {}).items()}
-    order, exclude = options["order"], options["exclude"]
-    if non_substantive is False:
-        extra_flags = None
-    elif non_substantive is True:
-        extra_flags = ()
-    else:
-        extra_flags = tuple(label_list(non_substantive, "non_substantive"))
+    order, exclude, extra_flags = _check_arguments(
+        row, col, control, weight, weight_kind, order, exclude, non_substantive
+    )
     source, tally = data, None
     if isinstance(data, pd.DataFrame):
         check_columns(data.columns, [row, col, control, weight])
@@ -410,72 +571,57 @@ def table(
         from .sources import tally_source  # the engines are optional: imported on demand
 
         data, tally = tally_source(data, row, col, control=control, weight=weight, order=order)
-    coded = {
-        role: code_column(
-            data[name],
-            name,
-            axis,
-            order.get(name),
-            exclude.get(name),
-            dropna,
-            nominal=(role == "control"),
-        )
-        for role, name, axis in (
-            ("row", row, "rows"),
-            ("col", col, "cols"),
-            ("control", control, "control"),
-        )
-        if name is not None
-    }
-    r, c = coded["row"], coded["col"]
+    roles = [(role, name, axis) for role, name, axis in
+             (("row", row, "rows"), ("col", col, "cols"), ("control", control, "control"))
+             if name is not None]
+    # coding: each column read as raw codes by its type (see raw_codes), without a copy
+    raws = [raw_codes(data[name]) for _, name, _ in roles]
+    sizes = tuple(raw.size for raw in raws)
+    strides = [int(np.prod(sizes[k + 1:])) for k in range(len(sizes))]
+    # counting: records (and weight sums) per combination of raw codes, then the rules
+    problems = (0, 0, 0)
+    if tally is not None:
+        sums = _count_lines(raws, strides, int(np.prod(sizes)), tally)
+    elif weight is None:
+        sums = _count_cells(raws, strides, int(np.prod(sizes)))
+    else:
+        w, problems = _weight_values(data, weight)
+        sums = _count_cells(raws, strides, int(np.prod(sizes)), w,
+                            squares=weight_kind == "sampling",
+                            fractional=weight_kind == "frequency")
+    sums = sums.reshape(-1, *sizes)
+    records = sums[0].astype(np.int64)
+    rules = {}
+    for k, ((role, name, axis), raw) in enumerate(zip(roles, raws, strict=True)):
+        found = records.sum(axis=tuple(a for a in range(len(roles)) if a != k))
+        rules[role] = column_rule(raw, found, name, axis, order.get(name), exclude.get(name),
+                                  dropna, nominal=(role == "control"))
+    r, c = rules["row"], rules["col"]
     n_i, n_j = len(r.labels), len(c.labels)
-    n_k = len(coded["control"].labels) if control is not None else 1
+    n_k = len(rules["control"].labels) if control is not None else 1
     if n_k == 0:
         raise ValueError(
             f"The control variable {control!r} has no category left to hold fixed: every value is "
             "missing or excluded. Leave out control=, or keep missing values with dropna=False."
         )
-    size = n_k * n_i * n_j
-    cell_type = np.min_scalar_type(-size - 1)  # the narrowest signed type holding every cell
-    flat = np.multiply(r.codes, n_j, dtype=cell_type) + c.codes
-    if control is not None:
-        flat += np.multiply(coded["control"].codes, n_i * n_j, dtype=cell_type)
-    keep = None  # records kept, when some are dropped (a code of -1 in any role)
-    if any(role.n_missing or role.n_excluded for role in coded.values()):
-        keep = np.logical_and.reduce([role.codes >= 0 for role in coded.values()])
-    cells_flat = flat if keep is None else flat[keep]
-    per_line = None if tally is None else _kept(tally.records, keep)
-    squared = records = None
+    if tally is None and weight is not None:
+        check_weights(weight, *problems)
+    # bookkeeping of dropped records, and the cells
+    lookups = [rules[role].lookup for role, _, _ in roles]
+    n_missing, n_excluded = _dropped(records, lookups, dropna)
+    shape = (n_k, n_i, n_j)
+    squared = per_cell = None
     if weight is None:
-        cells = _rows_per_cell(cells_flat, per_line, size)
+        cells = _cells(records, lookups, shape)
     else:
-        if tally is None:
-            w = _kept(_weights(data, weight), keep)
-            whole = bool(np.all(np.mod(w, 1) == 0))
-        else:
-            w = _kept(tally.weight_sum, keep)
-            whole = not _kept(tally.fractional, keep).any()
-        cells = _bincount(cells_flat, size, weights=w)
+        cells = _cells(sums[1], lookups, shape)
         check_total(float(cells.sum()), f"weights in {weight!r}")
-        if weight_kind == "frequency" and whole:
+        if weight_kind == "frequency" and not _cells(sums[3], lookups, shape).any():
             cells = whole_counts(cells)
         if weight_kind == "sampling":
-            w2 = w * w if tally is None else _kept(tally.weight_square_sum, keep)
-            squared = _bincount(cells_flat, size, weights=w2).reshape(n_k, n_i, n_j)
-            records = _rows_per_cell(cells_flat, per_line, size).reshape(n_k, n_i, n_j)
-    n_missing = n_excluded = 0
-    if keep is not None:  # some records were dropped: count why
-        missing_any = np.zeros(len(data), dtype=bool)
-        excluded_any = np.zeros(len(data), dtype=bool)
-        for coded_col, name in ((r, row), (c, col), (coded.get("control"), control)):
-            if coded_col is None:
-                continue
-            raw_missing = data[name].isna().to_numpy() if dropna else np.zeros(len(data), bool)
-            missing_any |= raw_missing
-            excluded_any |= (coded_col.codes < 0) & ~raw_missing
-        n_missing = _rows_where(missing_any & ~keep, tally)
-        n_excluded = _rows_where(excluded_any & ~missing_any, tally)
-    steps = r.steps + c.steps + (coded["control"].steps if control is not None else ())
+            squared = _cells(sums[2], lookups, shape)
+            per_cell = _cells(records, lookups, shape)
+    steps = r.steps + c.steps + (rules["control"].steps if control is not None else ())
     origin = Origin(
         "frame",
         {
@@ -491,7 +637,7 @@ def table(
         | ({"source": os.fspath(source)} if isinstance(source, (str, os.PathLike)) else {}),
     )
     return OrdinalTable(
-        cells=cells.reshape(n_k, n_i, n_j),
+        cells=cells,
         row_name=row,
         col_name=col,
         row_labels=r.labels,
@@ -500,11 +646,11 @@ def table(
         n_missing=n_missing,
         n_excluded=n_excluded,
         control_name=control,
-        control_labels=coded["control"].labels if control is not None else (None,),
+        control_labels=rules["control"].labels if control is not None else (None,),
         weight=weight,
         weight_kind=weight_kind if weight is not None else None,
         squared_weights=squared,
-        records=records,
+        records=per_cell,
         origin=origin,
         initial_steps=len(steps),
         non_substantive_extra=extra_flags,

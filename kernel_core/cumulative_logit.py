@@ -20,11 +20,11 @@ from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
-from scipy import special
 
 from .concordance import cell_concordance
 from .measure_table import inference_frame, interval_quantile, sampling_note
 from .ordinal_measures import Sampling, delta_variance
+from .scipy_special import special
 
 __all__ = [
     "CumulativeLogitFit",

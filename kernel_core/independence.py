@@ -8,9 +8,9 @@ from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
-from scipy import special
 
 from .ordinal_measures import Sampling
+from .scipy_special import special
 
 __all__ = [
     "PERMUTATION_MAX_TOTAL", "tests_frame", "PermutationResult", "permutation_test",

@@ -6,10 +6,10 @@ from collections.abc import Sequence
 
 import numpy as np
 import pandas as pd
-from scipy import special
 
 from .ordinal_measures import ORDINAL_MEASURES, Sampling, delta_variance, ordinal_measure_arrays
 from .polychoric import polychoric
+from .scipy_special import special
 from .two_by_two import two_by_two_measures
 
 __all__ = [
@@ -145,6 +145,7 @@ def measures_frame(
     sampling: Sampling | None = None,
     confidence: float = 0.95,
     extra_note: str = "",
+    arrays: dict | None = None,
 ) -> pd.DataFrame:
     """The measures of one 2-D table as a DataFrame (see :meth:`OrdinalTable.measures`).
 
@@ -158,6 +159,9 @@ def measures_frame(
         Confidence level of the intervals, strictly between 0 and 1.
     extra_note : str
         A remark added to every row's note (e.g. the table's non-substantive categories).
+    arrays : dict, optional
+        This table's result of :func:`ordinal_measure_arrays` when already computed in a batch
+        (as for the levels of a control variable); computed here otherwise.
 
     Returns
     -------
@@ -168,7 +172,7 @@ def measures_frame(
     sampling = sampling or Sampling()
     counts = np.asarray(counts, dtype=float)
     reasons = _undefined_reasons(counts)
-    arrays = ordinal_measure_arrays(counts, sampling)
+    arrays = ordinal_measure_arrays(counts, sampling) if arrays is None else arrays
     records = []
     for key in ORDINAL_MEASURES:
         est, se, se0 = (float(arrays[key][f]) for f in ("estimate", "std_error", "std_error_null"))

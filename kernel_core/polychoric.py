@@ -17,10 +17,10 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import special
 
 from .concordance import cell_concordance
 from .ordinal_measures import Sampling, delta_variance
+from .scipy_special import special
 
 __all__ = [
     "PolychoricResult",

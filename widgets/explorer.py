@@ -76,7 +76,7 @@ from .heatmap import HeatmapSection
 from .measures_panel import measures_html
 from .overview_view import AllPairsSection
 from .pair_view import PairSection
-from .pickers import VariablePickers
+from .pickers import VariablePickers, holds_two_values
 from .render import Rendered, TableCache, render
 from .report import rendered_report, small_sweep
 from .state import Edit, ExplorerState
@@ -144,7 +144,7 @@ _STYLE = """<style>
 def _usable(data: Any, column: str) -> bool:
     """Whether a column offered for rows or columns holds two values or more (known for a
     DataFrame; a source's columns are checked when counted)."""
-    return not has_records(data) or data[column].nunique(dropna=True) >= 2
+    return not has_records(data) or holds_two_values(data[column])
 
 
 def _axis(axis: str) -> str:

@@ -13,7 +13,11 @@ from rankfold.counting import MAX_NUMERIC_LEVELS
 if TYPE_CHECKING:
     from .render import Rendered
 
-__all__ = ["orderable_columns", "control_columns", "weight_columns", "VariablePickers"]
+__all__ = ["orderable_columns", "control_columns", "weight_columns", "holds_two_values",
+           "VariablePickers"]
+
+#: Values looked at to tell cheaply whether a long column has too many distinct values.
+SAMPLE = 1 << 14
 
 #: The value behind "none" in the control and weight pickers. Not None: ipywidgets reads a
 #: Dropdown value of None as "nothing selected" and would then show the picker blank.
@@ -25,10 +29,41 @@ def _column(value: object) -> str | None:
     return None if value is _NONE else value
 
 
+def _sample(column: pd.Series) -> pd.Series:
+    """The whole column when short, else SAMPLE values evenly spread over it."""
+    if len(column) <= SAMPLE:
+        return column
+    return column.iloc[:: len(column) // SAMPLE]
+
+
+def _too_many_values(column: pd.Series) -> bool:
+    """Whether a cheap look proves the column has more than MAX_NUMERIC_LEVELS values:
+    a Categorical's categories, an integer column's range, or an evenly spread sample."""
+    if isinstance(column.dtype, pd.CategoricalDtype):
+        return len(column.cat.categories) > MAX_NUMERIC_LEVELS and (
+            column.nunique(dropna=True) > MAX_NUMERIC_LEVELS)
+    if pd.api.types.is_bool_dtype(column.dtype):
+        return False
+    if pd.api.types.is_integer_dtype(column.dtype) and len(column):
+        if int(column.max()) - int(column.min()) < MAX_NUMERIC_LEVELS:
+            return False
+    return _sample(column).nunique(dropna=True) > MAX_NUMERIC_LEVELS
+
+
+def holds_two_values(column: pd.Series) -> bool:
+    """Whether the column holds at least two different values (looks at a sample first)."""
+    return _sample(column).nunique(dropna=True) >= 2 or column.nunique(dropna=True) >= 2
+
+
 def orderable_columns(
     data: pd.DataFrame, order: Mapping[str, Sequence[Hashable]] | None = None
 ) -> list[str]:
     """Columns that :func:`rankfold.table` can put in order, in the frame's column order.
+
+    Decided from the column types and cheap checks, so that wide frames open at once: a numeric
+    column is left out when a sample of its values (all of them when it is short) already shows
+    more than :data:`rankfold.counting.MAX_NUMERIC_LEVELS` distinct values; a long column whose
+    sample shows fewer is offered, and counting says so if it has too many after all.
 
     Parameters
     ----------
@@ -40,9 +75,8 @@ def orderable_columns(
     Returns
     -------
     list of str
-        Ordered Categoricals, numeric and boolean columns with at most
-        :data:`rankfold.counting.MAX_NUMERIC_LEVELS` distinct values, and any column named in
-        ``order``: the same rules :func:`rankfold.table` applies.
+        Ordered Categoricals, numeric and boolean columns with few distinct values, and any
+        column named in ``order``: the rules :func:`rankfold.table` applies.
     """
     given = set(order or {})
     found = []
@@ -55,7 +89,7 @@ def orderable_columns(
                 found.append(name)
         elif (pd.api.types.is_numeric_dtype(column.dtype)
               or pd.api.types.is_bool_dtype(column.dtype)):
-            if column.nunique(dropna=True) <= MAX_NUMERIC_LEVELS:
+            if not _too_many_values(column):
                 found.append(name)
     return found
 
@@ -74,9 +108,10 @@ def control_columns(data: pd.DataFrame) -> list[str]:
         In the frame's column order. A control variable needs no order (text is sorted), but
         more than
         :data:`rankfold.counting.MAX_NUMERIC_LEVELS` levels would give tables too small to read.
+        Decided by the same cheap checks as :func:`orderable_columns`.
     """
     return [name for name in data.columns
-            if 2 <= data[name].nunique(dropna=True) <= MAX_NUMERIC_LEVELS]
+            if not _too_many_values(data[name]) and holds_two_values(data[name])]
 
 
 def weight_columns(data: pd.DataFrame) -> list[str]:
