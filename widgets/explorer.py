@@ -71,7 +71,7 @@ from . import formatting
 from .category_editor import CategoryEditor, StepsPanel
 from .comparison import ComparisonSection
 from .computation_view import ComputationSection
-from .export import ExportSection, code_snippet, save_chart
+from .export import ExportSection, code_snippet, coding_caption, save_chart, save_measures
 from .heatmap import HeatmapSection
 from .measures_panel import measures_html
 from .pair_view import PairSection
@@ -604,7 +604,27 @@ class Explorer(widgets.VBox):
         chart = self._rendered.chart(name)
         if chart is None:
             raise ValueError("There is no pair view yet: choose a cell first (set_view).")
-        return str(save_chart(chart, path))
+        return str(save_chart(chart, path, coding_caption(self.table)))
+
+    def export_measures(self, path_or_format: str = "csv",
+                        folder: str = "rankfold-exports") -> str:
+        """Write the measures table (:attr:`measures`) as CSV, Markdown or LaTeX.
+
+        Parameters
+        ----------
+        path_or_format : str
+            ``'csv'``, ``'markdown'`` (``'md'``) or ``'latex'`` (``'tex'``) to write
+            ``<folder>/rankfold-measures.<suffix>``; or a file name ending in ``.csv``,
+            ``.md`` or ``.tex``, used as given.
+        folder : str
+            Where a format name writes (made when needed), relative to the working directory.
+
+        Returns
+        -------
+        str
+            The path written; an existing file is never overwritten (``-2``, ``-3``...).
+        """
+        return str(save_measures(self._rendered, path_or_format, folder))
 
     def _ipython_display_(self) -> None:
         """Show the widget and, beside it, the static record that saved notebooks keep."""
