@@ -183,7 +183,10 @@ def comparison_html(comparison: pd.DataFrame, row_name: str, col_name: str,
         for k, note in enumerate(notes, 1)
     )
     return (
-        '<div class="rankfold-comparison-wrap" style="max-width:100%;overflow-wrap:anywhere">'
+        '<div class="rankfold-comparison-wrap" style="max-width:100%;overflow-wrap:break-word">'
+        "<style>.rankfold-comparison-table td { white-space: nowrap; padding: 0 6px; }"
+        ".rankfold-comparison-table td.rankfold-change-interval,"
+        ".rankfold-comparison-intervals td { white-space: normal; font-size: 90%; }</style>"
         '<table class="rankfold-comparison-table" style="max-width:100%">'
         f"<thead><tr>{head}</tr></thead><tbody>" + "".join(body) + "</tbody></table>"
         + footnotes
