@@ -566,13 +566,15 @@ class Explorer(widgets.VBox):
         return self._rendered.coded_columns()
 
     def chart(self, name: str) -> alt.TopLevelMixin | None:
-        """The current Altair chart ``'heatmap'``, ``'pairs'`` (None until a cell is chosen) or
-        ``'comparison'``: an ordinary Altair object to restyle or save.
+        """The current Altair chart ``'heatmap'``, ``'pairs'`` (None until a cell is chosen),
+        ``'comparison'`` or ``'comparison_previous'``: an ordinary Altair object to restyle or
+        save.
 
         Parameters
         ----------
-        name : {'heatmap', 'pairs', 'comparison'}
-            Which chart.
+        name : {'heatmap', 'pairs', 'comparison', 'comparison_previous'}
+            Which chart (the comparisons are against the table as collected and against the
+            table before the last step).
 
         Returns
         -------
@@ -582,14 +584,15 @@ class Explorer(widgets.VBox):
         return self._rendered.chart(name)
 
     def save_chart(self, name: str, path: str) -> str:
-        """Save one of the charts (``'heatmap'``, ``'pairs'``, ``'comparison'``) to ``path``.
+        """Save one of the charts (see :meth:`chart`) to ``path``.
 
         Parameters
         ----------
-        name : {'heatmap', 'pairs', 'comparison'}
+        name : {'heatmap', 'pairs', 'comparison', 'comparison_previous'}
             Which chart.
         path : str
-            Where to write; the format follows the suffix (.html, .json, .png, .svg).
+            Where to write; the format follows the suffix (.html, .json, .png, .svg). PNG and
+            SVG are still pictures: no hints for the live chart, the coding steps below.
 
         Returns
         -------
