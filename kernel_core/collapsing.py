@@ -610,7 +610,7 @@ def sweep(
     -------
     pandas.DataFrame
         One row per coding, ordered by ``n_rows``, ``n_cols`` and then the cuts. Columns:
-        ``row_groups`` / ``col_groups`` (the merged categories, e.g. ``"1–2 | 3 | 4–5"``),
+        ``row_groups`` / ``col_groups`` (the merged categories, e.g. ``"1 to 2 | 3 | 4 to 5"``),
         ``row_sizes`` / ``col_sizes`` (how many original categories each keeps, e.g.
         ``"2+1+2"``), ``n_rows`` / ``n_cols``, ``row_cuts`` / ``col_cuts`` (the coding as a
         bitmask of kept boundaries, for :func:`apply_coding`), each measure's estimate (column

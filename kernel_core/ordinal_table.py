@@ -556,9 +556,10 @@ class OrdinalTable:
             Each group lists neighbouring categories to merge; categories in no group stay
             as they are.
         labels : sequence, optional
-            New label for each group; default ``"first–last"`` of the categories as counted
-            that the group covers (merging an earlier ``"40–59"`` with ``"60+"`` gives
-            ``"40–60+"``; see :func:`rankfold.steps.default_merge_label`).
+            New label for each group; default ``"first to last"`` of the categories as
+            counted that the group covers (merging an earlier ``"40 to 59"`` with ``"60+"``
+            gives ``"40 to 60+"``; see :func:`rankfold.steps.default_merge_label`). The joiner
+            is a word, so ranges inside labels (``"2–5 km"``) stay unambiguous.
 
         Returns
         -------

@@ -14,7 +14,7 @@ import pandas as pd
 
 __all__ = [
     "OrderStep", "ExcludeStep", "MergeStep", "Step", "apply_steps", "label_list", "merged_label",
-    "collected_members", "default_merge_label",
+    "collected_members", "default_merge_label", "MERGE_JOINER",
 ]
 
 AXES = ("rows", "cols")
@@ -30,11 +30,21 @@ def label_list(labels: object, what: str) -> list:
     return list(labels)
 
 
+#: What joins the first and last category of a merged group in its default label. A word, not a
+#: dash: labels often hold ranges ("2–5 km"), and "under 2 km–2–5 km" would be ambiguous.
+MERGE_JOINER = " to "
+
+
 def merged_label(group: Sequence[Hashable]) -> str:
-    """Default label of a merged group: ``"first–last"`` (a single label stays as it is)."""
+    """Default label of a merged group: ``"first to last"`` (a single label stays as it is).
+
+    The joiner is :data:`MERGE_JOINER` (``" to "``), so a merge of ``"10–20 km"`` and
+    ``"over 20 km"`` reads ``"10–20 km to over 20 km"``: a range inside a label cannot be
+    mistaken for the merge (common practice in table labelling; no published source).
+    """
     if len(group) == 1:
         return str(group[0])
-    return f"{group[0]}–{group[-1]}"
+    return f"{group[0]}{MERGE_JOINER}{group[-1]}"
 
 
 def collected_members(steps: Sequence[Step], variable: str) -> dict[Hashable, tuple]:
@@ -70,7 +80,7 @@ def collected_members(steps: Sequence[Step], variable: str) -> dict[Hashable, tu
 def default_merge_label(steps: Sequence[Step], variable: str, group: Sequence[Hashable]) -> str:
     """The label :meth:`OrdinalTable.merge` gives ``group`` (current labels of ``variable``)
     by default: :func:`merged_label` of the categories as counted that the group covers, so
-    merging ``"40–59"`` with ``"60+"`` gives ``"40–60+"``, not ``"40–59–60+"``.
+    merging ``"40 to 59"`` with ``"60+"`` gives ``"40 to 60+"``, not ``"40 to 59 to 60+"``.
 
     Parameters
     ----------
@@ -154,7 +164,7 @@ class MergeStep:
         Returns
         -------
         str
-            For example ``"size: merge [S, M] -> S–M"``.
+            For example ``"size: merge [S, M] -> S to M"``.
         """
         parts = [
             f"[{', '.join(map(str, g))}] -> {lab}"
@@ -248,7 +258,7 @@ def apply_steps(data: pd.Series | pd.DataFrame, steps: Sequence[Step]) -> pd.Ser
     >>> df = pd.DataFrame({"x": [1, 2, 3, 3], "y": [1, 1, 2, 3]})
     >>> t = rankfold.table(df, "x", "y").merge("rows", [[1, 2], [3]])
     >>> rankfold.apply_steps(df["x"], t.steps).tolist()
-    ['1–2', '1–2', '3', '3']
+    ['1 to 2', '1 to 2', '3', '3']
     """
     steps = list(steps)
     variables = list(dict.fromkeys(step.variable for step in steps))

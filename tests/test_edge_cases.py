@@ -57,6 +57,39 @@ def test_to_code_runs_with_interval_labels_after_merge_and_exclude(ages):
     np.testing.assert_array_equal(again.counts.to_numpy(), expected.to_numpy())
 
 
+def test_merged_labels_of_ranges_stay_unambiguous_and_round_trip():
+    """Labels that hold ranges ("2–5 km") merge into "first to last", never "a–b–c"."""
+    lengths = ["under 2 km", "2–5 km", "5–10 km", "10–20 km", "over 20 km"]
+    rng = np.random.default_rng(13)
+    frame = pd.DataFrame({
+        "length": pd.Categorical(rng.choice(lengths, 300), categories=lengths, ordered=True),
+        "rating": rng.integers(1, 4, 300),
+    })
+    table = (rankfold.table(frame, "length", "rating")
+             .merge("rows", [["under 2 km", "2–5 km"], ["10–20 km", "over 20 km"]]))
+    assert table.row_labels == ("under 2 km to 2–5 km", "5–10 km", "10–20 km to over 20 km")
+    # Unambiguous: splitting at the joiner gives back the first and last original label.
+    for label in (table.row_labels[0], table.row_labels[2]):
+        first, last = label.split(" to ")
+        assert first in lengths and last in lengths
+    again = rebuilt(table, frame)
+    assert again.row_labels == table.row_labels
+    coded = rankfold.apply_steps(frame["length"], table.steps)
+    assert list(coded.cat.categories) == list(table.row_labels)
+    # Source: pandas.crosstab of the records recoded by hand with a dict.
+    by_hand = frame["length"].astype(str).map({
+        "under 2 km": "near", "2–5 km": "near", "5–10 km": "mid", "10–20 km": "far",
+        "over 20 km": "far"})
+    expected = pd.crosstab(by_hand, frame["rating"]).loc[["near", "mid", "far"]]
+    np.testing.assert_array_equal(again.counts.to_numpy(), expected.to_numpy())
+    np.testing.assert_array_equal(
+        pd.crosstab(coded, frame["rating"]).to_numpy(), expected.to_numpy())
+    # labels= still overrides the default.
+    named = rankfold.table(frame, "length", "rating").merge(
+        "rows", [["10–20 km", "over 20 km"]], labels=["long"])
+    assert named.row_labels[-1] == "long"
+
+
 def test_to_code_runs_with_timestamp_labels():
     stamps = pd.to_datetime(["2021-03-01", "2020-01-01", "2021-03-01", "2022-06-30"])
     frame = pd.DataFrame({"when": stamps, "score": [1, 2, 2, 3]})

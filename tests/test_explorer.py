@@ -136,17 +136,17 @@ def test_the_users_frame_is_never_modified(df):
 
 def test_a_single_category_is_refused_and_the_state_kept(ex):
     merge_toggle(ex, "very poor", "poor").value = True
-    merge_toggle(ex, "very poor–poor", "fair").value = True
-    merge_toggle(ex, "very poor–fair", "good").value = True
-    merge_toggle(ex, "very poor–good", "very good").value = True
+    merge_toggle(ex, "very poor to poor", "fair").value = True
+    merge_toggle(ex, "very poor to fair", "good").value = True
+    merge_toggle(ex, "very poor to good", "very good").value = True
     kept = ex.table
-    last = merge_toggle(ex, "very poor–very good", "no answer")
+    last = merge_toggle(ex, "very poor to very good", "no answer")
     last.value = True
     assert "single category" in message(ex)
     assert ex.table is kept and len(ex.steps) == 4
     assert last.value is False  # the boundary shows as still open
     # each toggle names the merged category by the first and last category as collected
-    assert ex.table.col_labels == ("very poor–very good", "no answer")
+    assert ex.table.col_labels == ("very poor to very good", "no answer")
 
 
 def test_excluding_every_unit_is_refused(df):
@@ -315,15 +315,52 @@ def test_measures_panel_shows_estimates_warnings_and_cautions(ex, df):
     assert "rankfold-warning" not in one(ex, "rankfold-measures-box").value
 
 
-def test_comparison_puts_collected_and_current_side_by_side(ex, df):
+def shown_change(html: str, key: str) -> tuple[str, str, str, str, str]:
+    row = re.search(rf'<tr data-measure="{key}">(.*?)</tr>', html).group(1)
+    before, after = re.findall(r"<td>([^<]*)</td>", row)[:2]
+    change = re.search(r'rankfold-change">([^<]*)<', row).group(1)
+    interval = re.search(r'rankfold-change-interval">([^<]*)<', row).group(1)
+    p = re.search(r'rankfold-change-p">([^<]*)<', row).group(1)
+    return before, after, change, interval, p
+
+
+def test_comparison_against_collected_and_previous_step(ex, df):
     leave_out(ex, "cols", "no answer")
+    ex.merge("rows", [["10–20 km", "over 20 km"]])
     open_tab(ex, "Compare")
+    # the earlier tables built again through the core, independently of the explorer
+    collected = rankfold.table(df, ROW, COL)
+    merged = collected.merge("rows", [["10–20 km", "over 20 km"]])
+    current = merged.exclude("cols", ["no answer"])  # steps list order: rows' coding first
+    toggle = one(ex, "rankfold-compare-baseline")
+    for baseline, before in (("collected", collected), ("previous", merged)):
+        toggle.value = baseline
+        html = one(ex, "rankfold-comparison-summary").value
+        expected = rankfold.compare_measures(before, current)
+        for key in ("gamma", "somers_d_symmetric", "tau_b"):
+            r = expected.loc[key]
+            assert shown_change(html, key) == (
+                f"{r.before_estimate:.4f}", f"{r.after_estimate:.4f}", f"{r.change:.4f}",
+                f"[{r.change_ci_low:.3f}, {r.change_ci_high:.3f}]",
+                "&lt; 0.0001" if r.change_p_value < 0.0001 else f"{r.change_p_value:.4f}")
+            # a paired interval: centred on the change (common practice: estimate +- z SE)
+            assert r.change_ci_low < r.change < r.change_ci_high
+        assert "chosen after looking" in html and "rankfold-choice-caution" in html
+        spec = chart_spec(ex, "rankfold-comparison")
+        shown = json.dumps(spec)
+        assert "Somers' d (symmetric)" in shown and "paired interval" in shown
+    assert "step 1: service_rating: exclude no answer" in one(ex, "rankfold-compare-which").value
+    # the toggle is a view of this tab only: no history entry, no change of state
+    assert len(ex.history[0]) == 3
+
+
+def test_comparison_before_any_step_says_so(ex):
+    open_tab(ex, "Compare")
+    one(ex, "rankfold-compare-baseline").value = "previous"
+    assert "No coding step yet" in one(ex, "rankfold-compare-which").value
     html = one(ex, "rankfold-comparison-summary").value
-    collected = rankfold.table(df, ROW, COL).measures().loc["gamma", "estimate"]
-    current = ex.measures.loc["gamma", "estimate"]
-    row = re.search(r'<tr data-measure="gamma">.*?</tr>', html).group(0)
-    assert f"<td>{collected:.4f}</td>" in row and f"<td>{current:.4f}</td>" in row
-    assert f">{current - collected:.4f}<" in row
+    # identity coding: change 0 with standard error 0 (the paired delta method's own identity)
+    assert shown_change(html, "gamma")[2] == "0.0000"
 
 
 def test_export_files(ex, tmp_path, monkeypatch):
@@ -342,10 +379,11 @@ def test_export_files(ex, tmp_path, monkeypatch):
     one(ex, "rankfold-export-name").value = "demo"
     one(ex, "rankfold-export-columns").click()
     assert "Saved the coded columns" in message(ex)
-    saved = pd.read_csv(tmp_path / "demo-coded-columns.csv", index_col=0)
+    folder = tmp_path / "rankfold-exports"  # the default folder, beside the notebook
+    saved = pd.read_csv(folder / "demo-coded-columns.csv", index_col=0)
     assert saved[COL].isna().sum() == (ex.coded_columns()[COL].isna()).sum()
     one(ex, "rankfold-export-html").click()
-    page = (tmp_path / "demo-heatmap.html").read_text()
+    page = (folder / "demo-heatmap.html").read_text()
     assert not re.search(r"<script[^>]+src=", page)  # the Vega libraries are inside the page
     assert "demo-heatmap.html" in message(ex)
 
@@ -380,17 +418,17 @@ def test_a_text_column_with_a_given_order_can_be_reordered(df):
 def test_toggles_and_code_name_a_twice_merged_band_alike(df):
     by_toggles = rankfold.explore(df, ROW, COL)
     merge_toggle(by_toggles, "5–10 km", "10–20 km").value = True
-    merge_toggle(by_toggles, "5–10 km–10–20 km", "over 20 km").value = True
+    merge_toggle(by_toggles, "5–10 km to 10–20 km", "over 20 km").value = True
     by_code = rankfold.explore(df, ROW, COL)
     by_code.merge("rows", [["5–10 km", "10–20 km"]])
-    by_code.merge("rows", [["5–10 km–10–20 km", "over 20 km"]])
-    # "first–last" of the categories as counted, the core's rule for both ways in
-    expected = ("under 2 km", "2–5 km", "5–10 km–over 20 km")
+    by_code.merge("rows", [["5–10 km to 10–20 km", "over 20 km"]])
+    # "first to last" of the categories as counted, the core's rule for both ways in
+    expected = ("under 2 km", "2–5 km", "5–10 km to over 20 km")
     assert by_toggles.table.row_labels == by_code.table.row_labels == expected
     # Source: the merged band counted by hand with pandas from the records.
     far = df[ROW].isin(["5–10 km", "10–20 km", "over 20 km"])
     expected_counts = df.loc[far, COL].value_counts().reindex(list(by_code.table.col_labels))
-    np.testing.assert_array_equal(by_code.table.counts.loc["5–10 km–over 20 km"].to_numpy(),
+    np.testing.assert_array_equal(by_code.table.counts.loc["5–10 km to over 20 km"].to_numpy(),
                                   expected_counts.to_numpy())
 
 

@@ -56,9 +56,9 @@ def test_the_middle_of_three_steps_is_removed_with_its_button(ex, df):
 
 def test_a_removal_a_later_step_depends_on_is_refused_and_named(ex, df):
     ex.merge("cols", [["very poor", "poor"]])
-    ex.merge("cols", [["very poor–poor", "fair"]])  # names the category the first one made
+    ex.merge("cols", [["very poor to poor", "fair"]])  # names the category the first one made
     kept = ex.table
-    with pytest.raises(ValueError, match="very poor–poor") as caught:
+    with pytest.raises(ValueError, match="very poor to poor") as caught:
         ex.remove_step(0)
     assert "later step" in str(caught.value) and "service_rating: merge" in str(caught.value)
     assert ex.table is kept and "later step" in message(ex)
@@ -74,7 +74,7 @@ def test_split_and_bring_back(ex, df):
     ex.merge("cols", [["very poor", "poor"], ["good", "very good"]])
     ex.exclude("cols", ["no answer"])
     ex.exclude("rows", "under 2 km")  # a single label, as the core accepts
-    split = one(category_row(ex, "cols", "very poor–poor"), "rankfold-split")
+    split = one(category_row(ex, "cols", "very poor to poor"), "rankfold-split")
     assert split.layout.display is None  # shown for a merged category only
     assert one(category_row(ex, "cols", "fair"), "rankfold-split").layout.display == "none"
     split.click()  # the other group of the same merge stays merged
@@ -86,7 +86,7 @@ def test_split_and_bring_back(ex, df):
     assert_same_table(ex, rankfold.table(df, ROW, COL).exclude("rows", ["under 2 km"])
                       .merge("cols", [["good", "very good"]]))
     ex.bring_back("rows", "under 2 km")
-    ex.split("cols", "good–very good")
+    ex.split("cols", "good to very good")
     assert ex.codings == {} and ex.steps == ()
     with pytest.raises(ValueError, match="not a merged category"):
         ex.split("cols", "fair")
@@ -161,7 +161,7 @@ def test_opening_never_crashes():
 def test_applying_a_coding_says_which_steps_could_not_be_replayed(df):
     ex = rankfold.explore(df, ROW, COL)
     ex.merge("cols", [["very poor", "poor"]])
-    ex.exclude("cols", ["very poor–poor"])  # names a merged category: not on the swept table
+    ex.exclude("cols", ["very poor to poor"])  # names a merged category: not on the swept table
     tabs = one(ex, "rankfold-sections")
     tabs.selected_index = [t for t, _ in explorer_module.SECTIONS].index("Codings")
     section = ex._sections[tabs.selected_index]
@@ -170,10 +170,10 @@ def test_applying_a_coding_says_which_steps_could_not_be_replayed(df):
     chosen = frame[(frame["row_cuts"] == rows_kept) & (frame["n_cols"] == table.shape[1] - 1)]
     section._clicked({"row_cuts": rows_kept, "col_cuts": int(chosen["col_cuts"].iloc[0])})
     text = message(ex)
-    assert "could not be replayed" in text and "exclude very poor–poor" in text
+    assert "could not be replayed" in text and "exclude very poor to poor" in text
     ex.undo()
     assert [e.describe() for e in ex.state.edits] == [
-        "service_rating: merge [very poor, poor]", "service_rating: exclude very poor–poor"]
+        "service_rating: merge [very poor, poor]", "service_rating: exclude very poor to poor"]
 
 
 def test_steps_of_a_pair_keep_their_variable_after_a_swap(ex, df):

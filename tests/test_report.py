@@ -102,6 +102,7 @@ def test_explorer_report_tab_and_button(df, tmp_path, monkeypatch):
     # the Export tab's button writes the same kind of file, numbered beside the first
     export = ex._sections[[t for t in titles].index("Export")]
     export._stem.value = "mine"
+    export.folder.value = "."
     export.show(ex._rendered)
     export._save_report()
     assert (tmp_path / "mine-2.html").exists()

@@ -392,7 +392,7 @@ def test_bad_arguments_raise_clear_errors(call, message):
 # ------------------------------------------------------------------ helpers for the view
 def test_coding_of_reads_hand_made_merges():
     table = rankfold.table_from_counts(SMALL, row_labels=list("abcde"), col_labels=list("wxyz"))
-    merged = table.merge("rows", [["a", "b"]]).merge("rows", [["a–b", "c"]]).merge(
+    merged = table.merge("rows", [["a", "b"]]).merge("rows", [["a to b", "c"]]).merge(
         "cols", [["y", "z"]])
     cuts = coding_of(table, merged)
     # The groups written by hand above, read back through the cuts.

@@ -82,7 +82,7 @@ def test_current_coding_is_marked_whatever_the_order_of_edits(survey):
     expected = coding_of(base, base.merge("cols", [["good", "very good"]]))
     assert sweep_view.current_coding(base, explorer.table, explorer.state.edits) == expected
     assert "not one of these" not in section._summary.value
-    explorer.exclude("cols", ["good–very good"])
+    explorer.exclude("cols", ["good to very good"])
     assert "not one of these" in section._summary.value
     # The exclusion of the merged category needs its merge, so the sweep leaves it out but
     # keeps the exclusion of "no answer".

@@ -184,7 +184,7 @@ class CategoryEditor:
 
     def merge(self, k: int) -> None:
         """Propose merging the k-th category with the next one (named by the core's rule:
-        ``"poor–good"`` after two merges, not ``"poor–fair–good"``)."""
+        ``"poor to good"`` after two merges, not ``"poor to fair to good"``)."""
         edit = Edit("merge", self._variable, ((self._labels[k], self._labels[k + 1]),))
         self._propose(lambda s: s.with_edit(edit))
 

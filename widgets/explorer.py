@@ -71,7 +71,7 @@ from . import formatting
 from .category_editor import CategoryEditor, StepsPanel
 from .comparison import ComparisonSection
 from .computation_view import ComputationSection
-from .export import ExportSection, code_snippet, save_chart
+from .export import ExportSection, code_snippet, coding_caption, save_chart, save_measures
 from .heatmap import HeatmapSection
 from .measures_panel import measures_html
 from .overview_view import AllPairsSection
@@ -568,13 +568,15 @@ class Explorer(widgets.VBox):
         return self._rendered.coded_columns()
 
     def chart(self, name: str) -> alt.TopLevelMixin | None:
-        """The current Altair chart ``'heatmap'``, ``'pairs'`` (None until a cell is chosen) or
-        ``'comparison'``: an ordinary Altair object to restyle or save.
+        """The current Altair chart ``'heatmap'``, ``'pairs'`` (None until a cell is chosen),
+        ``'comparison'`` or ``'comparison_previous'``: an ordinary Altair object to restyle or
+        save.
 
         Parameters
         ----------
-        name : {'heatmap', 'pairs', 'comparison'}
-            Which chart.
+        name : {'heatmap', 'pairs', 'comparison', 'comparison_previous'}
+            Which chart (the comparisons are against the table as collected and against the
+            table before the last step).
 
         Returns
         -------
@@ -584,14 +586,15 @@ class Explorer(widgets.VBox):
         return self._rendered.chart(name)
 
     def save_chart(self, name: str, path: str) -> str:
-        """Save one of the charts (``'heatmap'``, ``'pairs'``, ``'comparison'``) to ``path``.
+        """Save one of the charts (see :meth:`chart`) to ``path``.
 
         Parameters
         ----------
-        name : {'heatmap', 'pairs', 'comparison'}
+        name : {'heatmap', 'pairs', 'comparison', 'comparison_previous'}
             Which chart.
         path : str
-            Where to write; the format follows the suffix (.html, .json, .png, .svg).
+            Where to write; the format follows the suffix (.html, .json, .png, .svg). PNG and
+            SVG are still pictures: no hints for the live chart, the coding steps below.
 
         Returns
         -------
@@ -606,7 +609,27 @@ class Explorer(widgets.VBox):
         chart = self._rendered.chart(name)
         if chart is None:
             raise ValueError("There is no pair view yet: choose a cell first (set_view).")
-        return str(save_chart(chart, path))
+        return str(save_chart(chart, path, coding_caption(self.table)))
+
+    def export_measures(self, path_or_format: str = "csv",
+                        folder: str = "rankfold-exports") -> str:
+        """Write the measures table (:attr:`measures`) as CSV, Markdown or LaTeX.
+
+        Parameters
+        ----------
+        path_or_format : str
+            ``'csv'``, ``'markdown'`` (``'md'``) or ``'latex'`` (``'tex'``) to write
+            ``<folder>/rankfold-measures.<suffix>``; or a file name ending in ``.csv``,
+            ``.md`` or ``.tex``, used as given.
+        folder : str
+            Where a format name writes (made when needed), relative to the working directory.
+
+        Returns
+        -------
+        str
+            The path written; an existing file is never overwritten (``-2``, ``-3``...).
+        """
+        return str(save_measures(self._rendered, path_or_format, folder))
 
     def _ipython_display_(self) -> None:
         """Show the widget and, beside it, the static record that saved notebooks keep."""

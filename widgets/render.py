@@ -17,7 +17,7 @@ import pandas as pd
 import rankfold
 from rankfold import Diagnostics, OrdinalTable, PairRegions
 
-from .comparison import COMPARED, comparison_chart
+from .comparison import BASELINES, COMPARED, comparison_chart
 from .heatmap import heatmap_chart
 from .pair_view import pair_chart
 from .state import ExplorerState
@@ -26,7 +26,7 @@ from .table_mode import fixed_table, has_records
 __all__ = ["TableCache", "Rendered", "render", "CHARTS"]
 
 #: Names of the charts a rendered state can draw (see :meth:`Rendered.chart`).
-CHARTS = ("heatmap", "pairs", "comparison")
+CHARTS = ("heatmap", "pairs", "comparison", "comparison_previous")
 
 
 class TableCache:
@@ -63,13 +63,6 @@ class TableCache:
         return state.table_key not in self._tables and not (
             has_records(self.data) or isinstance(self.data, OrdinalTable))
 
-    def collected_measures(self, state: ExplorerState) -> pd.DataFrame:
-        """Measures of :meth:`collected`, computed once."""
-        key = state.table_key
-        if key not in self._measures:
-            self._measures[key] = self.collected(state).measures()
-        return self._measures[key]
-
 
 @dataclass(frozen=True)
 class Rendered:
@@ -87,8 +80,9 @@ class Rendered:
         :func:`rankfold.cell_figures` of the table.
     regions : PairRegions or None
         :func:`rankfold.pair_regions` of the chosen cell, if one is chosen and still exists.
-    comparison : pandas.DataFrame
-        :func:`rankfold.compare_measures` of the collected and the current measures.
+    previous : OrdinalTable
+        The table before the last step of the shown pair (the last of ``state.edits``, the
+        numbering of the steps list); the table as collected when there is no step.
     left_out : float
         Units left out by the state's exclusions.
     source : TableCache
@@ -103,7 +97,7 @@ class Rendered:
     diagnostics: Diagnostics
     figures: pd.DataFrame
     regions: PairRegions | None
-    comparison: pd.DataFrame
+    previous: OrdinalTable
     left_out: float
     source: TableCache = field(repr=False, compare=False)
     _charts: dict = field(default_factory=dict, repr=False, compare=False)
@@ -123,9 +117,51 @@ class Rendered:
                 drawn = (None if self.regions is None
                          else pair_chart(self.figures, self.regions, t.row_name, t.col_name))
             else:
-                drawn = comparison_chart(self.comparison, t.row_name, t.col_name)
+                baseline = "collected" if name == "comparison" else "previous"
+                drawn = comparison_chart(self.compared(baseline), t.row_name, t.col_name,
+                                         baseline)
             self._charts[name] = drawn
         return self._charts[name]
+
+    @property
+    def comparison(self) -> pd.DataFrame:
+        """:meth:`compared` against the table as collected."""
+        return self.compared("collected")
+
+    def compared(self, baseline: str = "collected") -> pd.DataFrame:
+        """:func:`rankfold.compare_measures` of an earlier table and the current one, computed
+        on first request: both are codings of one collected table, so the change carries its
+        paired standard error, interval and p-value.
+
+        Parameters
+        ----------
+        baseline : {'collected', 'previous'}
+            The table as collected, or the table before the last step (:attr:`previous`).
+
+        Returns
+        -------
+        pandas.DataFrame
+            The measures of :data:`~rankfold.widgets.comparison.COMPARED`, one row each.
+        """
+        if baseline not in BASELINES:
+            raise ValueError(f"Compare against one of {list(BASELINES)}; got {baseline!r}.")
+        key = f"compared:{baseline}"
+        if key not in self._charts:
+            before = self.collected if baseline == "collected" else self.previous
+            keys = [k for k in COMPARED if k in self.measures.index]
+            self._charts[key] = rankfold.compare_measures(before, self.table, keys)
+        return self._charts[key]
+
+    def baseline_description(self, baseline: str) -> str:
+        """One sentence naming the earlier table of :meth:`compared`."""
+        edits = self.state.edits
+        if not edits:
+            return "No coding step yet: the current coding is the table as collected."
+        if baseline == "collected":
+            return (f"The current coding ({len(edits)} step(s)) against the table as "
+                    "collected.")
+        return (f"The current coding against the table before its last step, step "
+                f"{len(edits) - 1}: {edits[-1].describe()}.")
 
     def cell_labels(self, point: dict) -> tuple[Hashable, Hashable]:
         """The (row, column) labels of a clicked chart datum holding cell positions."""
@@ -187,9 +223,9 @@ def render(state: ExplorerState, cache: TableCache) -> Rendered:
         what and how to fix it.
     """
     collected = cache.collected(state)
-    table = collected
+    previous = table = collected
     for edit in state.edits:
-        table = edit.apply(table)
+        previous, table = table, edit.apply(table)
     _check_usable(table)
     measures = table.measures()
     regions = None
@@ -199,7 +235,6 @@ def render(state: ExplorerState, cache: TableCache) -> Rendered:
             regions = rankfold.pair_regions(
                 table.counts.to_numpy(), table.row_labels.index(row), table.col_labels.index(col)
             )
-    collected_measures = cache.collected_measures(state)
     return Rendered(
         state=state,
         collected=collected,
@@ -209,9 +244,7 @@ def render(state: ExplorerState, cache: TableCache) -> Rendered:
         diagnostics=table.diagnostics(),
         figures=rankfold.cell_figures(table),
         regions=regions,
-        comparison=rankfold.compare_measures(
-            collected_measures, measures, [k for k in COMPARED if k in measures.index]
-        ),
+        previous=previous,
         left_out=collected.n - table.n,
         source=cache,
     )

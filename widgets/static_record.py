@@ -22,6 +22,7 @@ import pandas as pd
 from rankfold import OrdinalTable
 
 from . import formatting
+from .export import static_spec
 from .measures_panel import measures_html
 
 if TYPE_CHECKING:
@@ -68,16 +69,12 @@ def chart_svg(chart: alt.TopLevelMixin) -> str:
         page belongs to the SVG namespace by the HTML parsing rules (WHATWG HTML, "foreign
         elements"), and dropping the namespace strings keeps the page free of any ``http://``
         text. Only for embedding in HTML, not for a stand-alone ``.svg`` file. A drawn copy
-        cannot be clicked, so a part of the subtitle that asks for a click is left out.
+        cannot be clicked, so title phrases that ask for a click are left out
+        (:func:`~rankfold.widgets.export.static_spec`).
     """
     import vl_convert
 
-    spec = chart.to_dict()
-    title = spec.get("title")
-    if isinstance(title, dict) and isinstance(title.get("subtitle"), str):
-        parts = [p for p in title["subtitle"].split("; ") if not p.startswith("click")]
-        title["subtitle"] = "; ".join(parts)
-    svg = vl_convert.vegalite_to_svg(spec)
+    svg = vl_convert.vegalite_to_svg(static_spec(chart))
     start = svg.index("<svg")
     head_end = svg.index(">", start)
     return _NAMESPACES.sub("", svg[start:head_end]) + svg[head_end:]

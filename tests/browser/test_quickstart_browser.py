@@ -75,7 +75,8 @@ def test_offline_and_console_guards_catch_what_they_must(guarded_context) -> Non
     assert any("rankfold guard check" in e for e in guard.console_errors)
 
 
-def test_quickstart_explorer_in_the_browser(open_notebook, tmp_path, request) -> None:
+def test_quickstart_explorer_in_the_browser(open_notebook, lab_server, tmp_path,
+                                            request) -> None:
     from playwright.sync_api import expect
 
     notebook = open_notebook(QUICKSTART)
@@ -225,3 +226,46 @@ def test_quickstart_explorer_in_the_browser(open_notebook, tmp_path, request) ->
         expect(row).to_have_attribute("data-pairs", f"{pairs:g}")
     explorer.screenshot(path=tmp_path / "pair_view.png")
     print(f"screenshots: {tmp_path / 'explorer.png'} and {tmp_path / 'pair_view.png'}")
+
+    # Compare: the change with its paired interval, against the table as collected and then
+    # against the previous step (here the same table: the one step is the merge).
+    def open_section(title: str) -> None:
+        explorer.locator(".rankfold-sections .lm-TabBar-tab",
+                         has_text=re.compile(f"^{title}$")).click()
+
+    open_section("Compare")
+    expected = rankfold.compare_measures(collected, table).loc["gamma"]
+    gamma_row = explorer.locator(".rankfold-comparison-table tr[data-measure='gamma']")
+    expect(gamma_row.locator("td.rankfold-change")).to_have_text(f"{expected.change:.4f}")
+    expect(gamma_row.locator("td.rankfold-change-interval")).to_have_text(
+        f"[{expected.change_ci_low:.3f}, {expected.change_ci_high:.3f}]")
+    expect(explorer.locator(".rankfold-choice-caution")).to_contain_text("after looking")
+    expect(explorer.locator(".rankfold-comparison svg")).to_contain_text("Somers' d (symmetric)")
+    explorer.locator(".rankfold-compare-baseline button",
+                     has_text="against the previous step").click()
+    expect(explorer.locator(".rankfold-compare-which")).to_contain_text(
+        f"step 0: {col_name}: merge")
+    expect(explorer.locator(".rankfold-comparison-table thead")).to_contain_text(
+        "before the last step")
+    expect(explorer.locator(".rankfold-comparison svg")).to_contain_text("Before the last step")
+
+    # Export the measures table as Markdown through the page; the file lands in the default
+    # folder beside the notebook, and the copy button puts the same text on the clipboard.
+    open_section("Export")
+    explorer.locator(".rankfold-export-table-format select").select_option(label="Markdown")
+    explorer.locator(".rankfold-export-measures").click()
+    message = explorer.locator(".rankfold-message")
+    expect(message).to_contain_text("Saved the measures table to")
+    written = lab_server.root / "rankfold-exports" / "rankfold-measures.md"
+    text = written.read_text(encoding="utf-8")
+    gamma_line = next(line for line in text.splitlines() if line.startswith("| gamma |"))
+    assert f"| {table.measures().loc['gamma', 'estimate']:.4f} |" in gamma_line
+    assert f"{col_name}: merge [{upper}, {lower}]" in text
+    explorer.locator(".rankfold-export-measures").click()  # never overwritten: numbered
+    expect(message).to_contain_text("rankfold-measures-2.md")
+    page.context.grant_permissions(["clipboard-read", "clipboard-write"],
+                                   origin=lab_server.url)
+    copy = explorer.locator(".rankfold-copy-measures button")
+    copy.click()
+    expect(copy).to_have_text("copied")
+    assert page.evaluate("navigator.clipboard.readText()") == text
