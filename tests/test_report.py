@@ -88,7 +88,7 @@ def test_explorer_report_tab_and_button(df, tmp_path, monkeypatch):
     monkeypatch.chdir(tmp_path)
     ex = explore(df, "trip_length", "service_rating")
     titles = [ex._tabs.get_title(k) for k in range(len(ex._sections))]
-    assert titles[-1] == "How it is computed"
+    assert "How it is computed" in titles
     ex.exclude("cols", ["no answer"])
     ex.merge("cols", [["very poor", "poor"]])
     written = ex.report("mine.html")
@@ -111,7 +111,7 @@ def test_explorer_report_tab_and_button(df, tmp_path, monkeypatch):
 
 def test_computation_tab_shows_pairs_and_the_last_step(df):
     ex = explore(df, "trip_length", "service_rating")
-    index = len(ex._sections) - 1
+    index = [ex._tabs.get_title(k) for k in range(len(ex._sections))].index("How it is computed")
     ex._tabs.selected_index = index
     view = ex._sections[index]._html
     assert "No coding step yet" in view.value
