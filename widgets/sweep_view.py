@@ -298,8 +298,11 @@ def sweep_chart(
             lookup="key", from_=names)
     return (
         chart.facet(row=alt.Row("measure:N", sort=list(labels.values()), title=None,
+                                # each measure's name above its strip, not beside it: the
+                                # chart then fits a narrow tab
                                 header=alt.Header(labelAngle=0, labelAlign="left",
-                                                  labelLimit=220)))
+                                                  labelOrient="top", labelAnchor="start",
+                                                  labelFontWeight="bold", labelLimit=420)))
         .resolve_scale(y="independent")
         .properties(title=alt.Title(
             "Every coding by merging neighbouring categories",
