@@ -288,12 +288,14 @@ def partial_design_note(control_totals: str, weighted: tuple[float, float] | Non
     Returns
     -------
     str
-        E.g. ``"the level of each unit random"``; with sampling weights the Kish note of
+        E.g. ``"each unit's level taken as random (level sizes not fixed in advance)"``; with
+        sampling weights the Kish note of
         :func:`rankfold.measure_table.sampling_note` comes first.
     """
     fixed = control_totals == "fixed"
     if weighted is None:
-        return "level sizes fixed by design" if fixed else "the level of each unit random"
+        random = "each unit's level taken as random (level sizes not fixed in advance)"
+        return "level sizes fixed by design" if fixed else random
     return sampling_note(*weighted) + ("; each level's records a sample of their own" if fixed
                                       else "; all records one sample, the level of each random")
 
@@ -463,7 +465,8 @@ def cmh_correlation(
                 "note": "the scores do not vary within any level"}
     statistic = float(difference**2 / variance)
     return {"statistic": statistic, "df": 1, "p_value": float(special.chdtrc(1, statistic)),
-            "note": "association within levels, pooled (scores as for trend_m2)"}
+            "note": "association within levels, pooled over them (categories scored as in the "
+                     "linear-trend test M²)"}
 
 
 def control_tests(
@@ -492,8 +495,8 @@ def control_tests(
         cmh = cmh_correlation(table.cells, scores)
     else:
         cmh = {"statistic": np.nan, "df": np.nan, "p_value": np.nan,
-               "note": "not for sampling weights: the weighted totals are not counts; use the "
-                       "z test of partial_measures()"}
+               "note": "not shown with sampling weights (survey weights): weighted totals are not "
+                       "counts of units; read the p-value of partial gamma instead"}
     gamma = ordinal_measure_arrays(table.cells, sampling)["gamma"]
     homogeneity = gamma_homogeneity(gamma["estimate"], gamma["std_error"], gamma["on_bound"])
     frame = pd.DataFrame.from_dict(

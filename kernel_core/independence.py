@@ -148,8 +148,8 @@ def tests_frame(
     out = {}
     if sampling is not None and sampling.squared is not None:
         reason = (
-            "not for sampling weights: the weighted totals are not counts; use the "
-            "z tests of measures(), whose errors follow the weights"
+            "not shown with sampling weights (survey weights): weighted totals are not counts "
+            "of units; read the p-values of the measures instead, which allow for the weights"
         )
         return _frame(dict.fromkeys(TEST_KEYS, (np.nan, np.nan, np.nan, reason)))
     if df < 1 or total <= 0:

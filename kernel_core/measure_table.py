@@ -25,8 +25,9 @@ __all__ = [
 
 #: The note beside an estimate on an end of its range (gamma = +/-1, say).
 BOUND_NOTE = (
-    "estimate at its bound: the delta method gives no interval there; for a p-value that "
-    "does not rely on it, reshuffle the units with permutation_test (counts only)"
+    "estimate at its bound (the end of its range, such as +1 or -1), where no interval can be "
+    "computed; a permutation test, which reshuffles the units, gives a p-value that does not "
+    "need one (unweighted counts only)"
 )
 
 COLUMNS = ["estimate", "std_error", "ci_low", "ci_high", "std_error_null", "z", "p_value", "note"]
@@ -269,8 +270,11 @@ def sampling_note(total: float, squared: float) -> str:
     """
     size = f"{total**2 / squared:,.1f}" if squared > 0 else "undefined (no weight)"
     return (
-        "sampling weights: Taylor-linearised errors, rows as a with-replacement sample "
-        f"(no clusters or strata); effective sample size (Kish) = {size} respondents"
+        "sampling weights (survey weights): the intervals allow for the weights, treating the "
+        "rows as drawn independently (no clusters or strata; Taylor-linearised errors); effective "
+        "sample size "
+        f"(Kish) = {size} respondents: the weighted data hold about as much information as "
+        "that many unweighted ones"
     )
 
 

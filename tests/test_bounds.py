@@ -107,7 +107,7 @@ def test_example_without_discordant_pairs():
     row = rankfold.table_from_counts([[13, 0], [4, 6]]).measures().loc["gamma"]
     assert row["estimate"] == 1.0 and row["std_error"] == 0.0
     assert BOUND_NOTE in row["note"] and np.isnan(row["ci_low"])
-    assert "permutation_test" in row["note"]
+    assert "permutation test" in row["note"]
 
 
 def test_weighted_bound_is_decided_from_the_pairs():

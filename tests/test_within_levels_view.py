@@ -141,12 +141,15 @@ def test_pickers_change_roles_and_refuse_conflicts(visits):
 
 
 def test_the_grid_puts_no_more_heatmaps_side_by_side_than_fit(controlled):
-    from rankfold.widgets.heatmap import CELL_WIDTH
+    from rankfold.widgets.heatmap import cell_width
     from rankfold.widgets.within_levels_view import GRID_WIDTH
 
     wide = level_heatmaps(controlled, "count").to_dict()  # 5 satisfaction columns + totals
-    assert CELL_WIDTH * 6 * 2 > GRID_WIDTH and wide["columns"] == 1
+    assert cell_width(6) * 6 * 2 > GRID_WIDTH and wide["columns"] == 1
     narrow_table = controlled.merge("cols", [["very unhappy", "unhappy", "neutral"],
                                           ["happy", "very happy"]])
     narrow = level_heatmaps(narrow_table, "count").to_dict()  # 2 columns + totals
-    assert narrow["columns"] == 2 and len(narrow["concat"]) == 3
+    # two heatmaps of 3 cells and their row labels are wider than the grid: one per line
+    assert (cell_width(3) * 3 + 120) * 2 > GRID_WIDTH
+    assert narrow["columns"] == 1 and len(narrow["concat"]) == 3
+    assert level_heatmaps(narrow_table, "count", columns=2).to_dict()["columns"] == 2

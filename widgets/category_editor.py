@@ -19,6 +19,11 @@ if TYPE_CHECKING:
 __all__ = ["CategoryEditor", "StepsPanel"]
 
 _AXIS_TITLES = {"rows": "down the side", "cols": "across the top"}
+#: Where a variable's order came from, in plain words (the order step's ``origin``).
+_ORIGINS = {"declared": "order set in the data", "numeric": "ordered by value",
+            "given": "order given to explore()", "sorted": "sorted by name: check the order"}
+#: Origins whose order the editor does not offer to change: the values themselves fix it.
+_FIXED_ORDER = ("declared", "numeric")
 
 
 def _small(widget: widgets.DOMWidget, css_class: str, tooltip: str) -> widgets.DOMWidget:
@@ -33,7 +38,7 @@ class _CategoryRow:
     split (for a merged category)."""
 
     def __init__(self, editor: CategoryEditor, k: int) -> None:
-        self.name = widgets.HTML(layout=widgets.Layout(min_width="150px"))
+        self.name = widgets.HTML(layout=widgets.Layout(flex="1 1 150px", min_width="90px"))
         self.leave_out = _small(widgets.Button(description="leave out"), "rankfold-exclude", "")
         self.up = _small(widgets.Button(description="↑"), "rankfold-move-up", "")
         self.down = _small(widgets.Button(description="↓"), "rankfold-move-down", "")
@@ -116,7 +121,7 @@ class CategoryEditor:
             self._toggles.append(self._merge_toggle(len(self._toggles)))
         self._title.value = (
             f"<b>{_AXIS_TITLES[self._axis]}: {formatting.text(self._variable)}</b> "
-            f"<span class='rankfold-hint'>(order {origin})</span>"
+            f"<span class='rankfold-hint'>({_ORIGINS.get(origin, f'order {origin}')})</span>"
         )
         members = collected_members(table.steps, self._variable)
         children: list[widgets.Widget] = [self._title]
@@ -126,7 +131,7 @@ class CategoryEditor:
                 toggle.value = False
                 toggle.tooltip = f"Merge {self._labels[k - 1]} and {label}"
                 children.append(toggle)
-            self._rows[k].show(label, total, k, size, movable=origin != "declared",
+            self._rows[k].show(label, total, k, size, movable=origin not in _FIXED_ORDER,
                                merged=len(members.get(label, (label,))) > 1)
             children.append(self._rows[k].widget)
         self._flagged = table.non_substantive[self._axis]
@@ -153,7 +158,7 @@ class CategoryEditor:
         back.on_click(lambda _: self.bring_back(label))
         return widgets.HBox([widgets.HTML(
             f"<span class='rankfold-left-out-label'>{formatting.text(label)}</span>",
-            layout=widgets.Layout(min_width="150px")), back])
+            layout=widgets.Layout(flex="1 1 150px", min_width="90px")), back])
 
     def split(self, k: int) -> None:
         """Propose taking back the merge that made the k-th category."""
@@ -238,7 +243,7 @@ class StepsPanel:
         self.widget.add_class("rankfold-steps")
 
     def _line(self, k: int) -> tuple[widgets.HTML, widgets.Button, widgets.HBox]:
-        text = widgets.HTML(layout=widgets.Layout(min_width="250px"))
+        text = widgets.HTML(layout=widgets.Layout(flex="1 1 250px", min_width="120px"))
         remove = _small(widgets.Button(description="remove"), "rankfold-remove-step", "")
         collected = self._collected
         remove.on_click(lambda _: self._propose(

@@ -22,9 +22,9 @@ CSS classes (stable, for styling and browser tests)
 ``rankfold-editor-rows``, ``rankfold-editor-cols`` (both also ``rankfold-editor``)
     Category editors. Each category is an ``rankfold-category`` row with a label
     (``span.rankfold-category-label``), its count (``span.rankfold-category-count``), a
-    ``rankfold-exclude`` button and, when the order was not declared, ``rankfold-move-up`` and
-    ``rankfold-move-down`` buttons. Between neighbours sits a ``rankfold-merge-toggle``
-    button whose tooltip (title) reads ``Merge <upper> and <lower>``.
+    ``rankfold-exclude`` button and, when the order was neither declared nor fixed by numeric
+    values, ``rankfold-move-up`` and ``rankfold-move-down`` buttons. Between neighbours sits a
+    ``rankfold-merge-toggle`` button whose tooltip (title) reads ``Merge <upper> and <lower>``.
     A merged category also has a ``rankfold-split`` button; categories left out are listed
     below (``rankfold-left-out``) with a ``rankfold-bring-back`` button each; answers that look
     off the scale ("no answer", ...) raise a ``rankfold-non-substantive`` warning with a
@@ -52,7 +52,14 @@ CSS classes (stable, for styling and browser tests)
     The measures: ``table.rankfold-measures`` whose rows carry ``data-measure`` (the measure
     key, e.g. ``gamma``, plus ``pearson_x2``) and whose ``td.rankfold-estimate`` cells
     hold the estimate to 4 decimals; ``div.rankfold-warning`` for sparse-cell warnings and
-    ``ul.rankfold-cautions``.
+    ``ul.rankfold-cautions``. Each measure row has a plain explanation as its ``title``; the
+    ``rankfold-measures-help-toggle`` button above the table shows ``rankfold-measures-help``
+    (how gamma, Somers' d and tau-b differ, and why merging moves them).
+
+Every control carries a tooltip (``tooltip``; a Dropdown's sits on the control itself and on
+its label, see :func:`~rankfold.widgets.pickers.labelled`). The editors and the tabs sit side
+by side when the output is wide enough, else the tabs go below them; charts size their cells
+to :data:`~rankfold.widgets.heatmap.GRID_BUDGET`.
 """
 
 from __future__ import annotations
@@ -73,7 +80,7 @@ from .comparison import ComparisonSection
 from .computation_view import ComputationSection
 from .export import ExportSection, code_snippet, coding_caption, save_chart, save_measures
 from .heatmap import HeatmapSection
-from .measures_panel import measures_html
+from .measures_panel import MeasuresHelp, measures_html
 from .overview_view import AllPairsSection
 from .pair_view import PairSection
 from .pickers import VariablePickers, holds_two_values
@@ -112,8 +119,24 @@ _STYLE = """<style>
   border-collapse: collapse; font-variant-numeric: tabular-nums; margin: 4px 0; }
 .rankfold-measures th, .rankfold-measures td, .rankfold-comparison-table th,
 .rankfold-comparison-table td, .rankfold-pair-table th, .rankfold-pair-table td {
-  padding: 2px 8px; text-align: right; white-space: nowrap;
+  padding: 2px 6px; text-align: right; white-space: nowrap;
   border-bottom: 1px solid var(--jp-border-color2, rgba(128, 128, 128, 0.35)); }
+.rankfold-measures th, .rankfold-comparison-table th, .rankfold-pair-table th,
+.rankfold-pair-table td:nth-child(2) { white-space: normal; }
+.rankfold-measures th[scope=row] { min-width: 8em; }
+.rankfold-explorer .widget-html-content { white-space: normal; overflow-wrap: anywhere;
+  line-height: 1.4; }
+.rankfold-explorer .widget-html-content pre { overflow-wrap: normal; }
+.rankfold-right, .rankfold-left, .rankfold-sections, .rankfold-sections .lm-TabBar-content,
+.rankfold-sections .widget-tab-contents, .rankfold-sections .jupyter-widget-Collapse-contents {
+  min-width: 0; max-width: 100%; }
+.rankfold-sections .lm-TabBar-tab { flex: 1 1 auto; min-width: 0; max-width: none; }
+.rankfold-sections .lm-TabBar-content { flex-wrap: wrap; }
+.rankfold-explorer .widget-toggle-buttons { flex-wrap: wrap; height: auto; }
+.rankfold-explorer .widget-toggle-buttons .widget-toggle-button { margin-bottom: 2px; }
+.rankfold-explorer .widget-dropdown, .rankfold-explorer .widget-text { max-width: 100%; }
+.rankfold-explorer .widget-dropdown > select { min-width: 0; }
+.rankfold-measures-help { max-width: 46em; }
 .rankfold-measures th[scope=row], .rankfold-comparison-table th[scope=row],
 .rankfold-pair-table td:first-child, .rankfold-pair-table td:nth-child(2) {
   text-align: left; font-weight: normal; }
@@ -121,8 +144,8 @@ _STYLE = """<style>
 .rankfold-comparison-table thead th:first-child, .rankfold-pair-table thead th:first-child,
 .rankfold-pair-table thead th:nth-child(2) { text-align: left; }
 .rankfold-measures td.rankfold-note { text-align: left; font-size: 90%; opacity: 0.8;
-  max-width: 30em; white-space: normal; }
-.rankfold-group td { text-align: left; font-style: italic; opacity: 0.8; }
+  min-width: 13em; max-width: 30em; white-space: normal; overflow-wrap: normal; }
+.rankfold-group td { text-align: left; font-style: italic; opacity: 0.8; white-space: normal; }
 .rankfold-warning, .rankfold-message-error, .rankfold-message-info {
   padding: 4px 8px; margin: 6px 0; border-left: 4px solid #d08a00; }
 .rankfold-message-error { border-left-color: #c8382f; }
@@ -223,13 +246,19 @@ class Explorer(widgets.VBox):
         self._tabs.observe(lambda _: self._open_tab(), names="selected_index")
         self._measures = widgets.HTML()
         self._measures.add_class("rankfold-measures-box")
+        self._help = MeasuresHelp()
+        # The editors and the tabs sit side by side when both fit, else the tabs go below
+        # (and then have the whole width); nothing inside is wider than its column.
         left = widgets.VBox([*(e.widget for e in self._editors), self._steps.widget],
-                            layout=widgets.Layout(min_width="340px", max_width="400px"))
-        right = widgets.VBox([self._tabs, self._measures],
-                             layout=widgets.Layout(flex="1 1 auto", overflow="auto"))
+                            layout=widgets.Layout(flex="0 1 340px", min_width="300px",
+                                                  max_width="400px"))
+        left.add_class("rankfold-left")
+        right = widgets.VBox([self._tabs, self._help.widget, self._measures],
+                             layout=widgets.Layout(flex="1 1 560px", min_width="0"))
+        right.add_class("rankfold-right")
         super().__init__([
             widgets.HTML(_STYLE), self._pickers.widget, self._counting.widget, self._message,
-            widgets.HBox([left, right]),
+            widgets.HBox([left, right], layout=widgets.Layout(flex_flow="row wrap")),
         ])
         self.add_class("rankfold-explorer")
         self._show(self._rendered)

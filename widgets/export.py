@@ -24,6 +24,7 @@ import traitlets
 from rankfold import OrdinalTable, measure_label
 
 from . import formatting
+from .pickers import labelled
 from .table_mode import has_records
 
 if TYPE_CHECKING:
@@ -393,6 +394,11 @@ class CopyButton(anywidget.AnyWidget):
     copied = traitlets.Int(0).tag(sync=True)
 
 
+def _with_label(control: widgets.DOMWidget) -> widgets.HBox:
+    """The control with its description as a label that shows the same tooltip."""
+    return labelled(control, control.description, control.tooltip)
+
+
 class ExportSection:
     """Save charts, the measures table or the coded columns; copy the measures table; the code
     of the current table.
@@ -458,9 +464,10 @@ class ExportSection:
         self._code.add_class("rankfold-code")
         wrap = widgets.Layout(flex_flow="row wrap", max_width="100%")
         self.widget = widgets.VBox([
-            widgets.HBox([self.folder, self._stem], layout=wrap),
-            widgets.HBox([self._chart, *chart_buttons], layout=wrap),
-            widgets.HBox([self._table_format, table_button, self.copy], layout=wrap),
+            widgets.HBox([_with_label(self.folder), _with_label(self._stem)], layout=wrap),
+            widgets.HBox([_with_label(self._chart), *chart_buttons], layout=wrap),
+            widgets.HBox([_with_label(self._table_format), table_button, self.copy],
+                         layout=wrap),
             widgets.HBox([columns, report], layout=wrap),
             self._busy,
             widgets.HTML("<p>Pictures (PNG, SVG) leave out hints meant for the live chart and "

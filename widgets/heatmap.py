@@ -18,12 +18,20 @@ from .state import COLOUR_CHOICES
 if TYPE_CHECKING:
     from .render import Rendered
 
-__all__ = ["heatmap_chart", "HeatmapSection", "grid_axes", "TOTAL"]
+__all__ = ["heatmap_chart", "HeatmapSection", "grid_axes", "cell_width", "TOTAL"]
 
 TOTAL = "total"
-CELL_WIDTH = 78
+CELL_WIDTH = 78  # the widest a cell gets
+MIN_CELL_WIDTH = 40  # room for "12,345" in the cells' font
 CELL_HEIGHT = 34
+#: Width (px) the cells of a heatmap may take together: what the explorer's tabs leave for the
+#: cells beside the row labels in a 1280-px window with JupyterLab's file browser open.
+GRID_BUDGET = 440
+_LABEL_LIMIT = 120  # longest row label drawn (px); longer ones end in "…"
 _DIVERGING = {"adjusted_residual", "pair_contribution"}
+_TOTAL_INK = "#595959"  # the totals' text (no cell behind them)
+#: Text colours of the charts' numbers: white on dark cells, near-black on light, grey totals.
+INKS = ("#ffffff", "#1a1a1a", _TOTAL_INK)
 
 
 def _cell_text(value: float, colour_by: str) -> str:
@@ -44,6 +52,12 @@ def _margin_label(labels: Sequence[str]) -> str:
     while label in labels:
         label = f"({label})"
     return label
+
+
+def cell_width(columns: int) -> int:
+    """Width of a heatmap cell for ``columns`` columns (totals included): cells shrink from
+    :data:`CELL_WIDTH` to :data:`MIN_CELL_WIDTH` so that the grid fits :data:`GRID_BUDGET`."""
+    return int(max(MIN_CELL_WIDTH, min(CELL_WIDTH, GRID_BUDGET // max(columns, 1))))
 
 
 def grid_axes(
@@ -70,14 +84,16 @@ def grid_axes(
     if margins:
         rows.append(_margin_label(rows))
         cols.append(_margin_label(cols))
-    long_labels = max(map(len, cols), default=0) > 10
+    # labels wider than a cell (about 6 px a character) are turned so they do not overlap
+    fits = max(map(len, cols), default=0) * 6 <= cell_width(len(cols)) - 4
     with building():
         x = alt.X(
             field="col", type="nominal", sort=cols, title=col_name,
-            axis=alt.Axis(orient="top", labelAngle=-30 if long_labels else 0, labelLimit=140),
+            axis=alt.Axis(orient="top", labelAngle=0 if fits else -40, labelLimit=110,
+                          labelAlign="center" if fits else "left"),
         )
         y = alt.Y(field="row", type="nominal", sort=rows, title=row_name,
-                  axis=alt.Axis(labelLimit=160))
+                  axis=alt.Axis(labelLimit=_LABEL_LIMIT))
     return x, y
 
 
@@ -132,7 +148,7 @@ def heatmap_chart(
     cells = [
         {"row": r, "col": c, "row_position": int(i), "col_position": int(j),
          "value": float(v) if ok else None, "label": _cell_text(v, colour_by),
-         "ink": "light" if ok and abs(v) / largest > 0.6 else "dark"}
+         "ink": "#ffffff" if ok and abs(v) / largest > 0.6 else "#1a1a1a"}
         for r, c, i, j, v, ok in zip(
             map(str, figures["row"]), map(str, figures["col"]), figures["row_position"],
             figures["col_position"], values, finite, strict=True)
@@ -142,7 +158,7 @@ def heatmap_chart(
     margins = [(r, totals_col, t) for r, t in zip(row_labels, first_col["row_total"], strict=True)]
     margins += [(totals_row, c, t) for c, t in zip(col_labels, first_row["col_total"], strict=True)]
     margins.append((totals_row, totals_col, float(first_col["row_total"].sum())))
-    cells += [{"row": r, "col": c, "label": formatting.amount(t), "ink": "total"}
+    cells += [{"row": r, "col": c, "label": formatting.amount(t), "ink": _TOTAL_INK}
               for r, c, t in margins]
     with building():
         if colour_by in _DIVERGING:
@@ -159,11 +175,13 @@ def heatmap_chart(
             x=x, y=y,
             color=alt.Color(field="value", type="quantitative", scale=scale,
                             title=COLOUR_CHOICES[colour_by], legend=legend),
-        ).transform_filter("datum.ink != 'total'").add_params(click)
-        ink = alt.Color(field="ink", type="nominal", legend=None, scale=alt.Scale(
-            domain=["dark", "light", "total"], range=["#1a1a1a", "#ffffff", "#595959"]))
+        ).transform_filter(f"datum.ink != '{_TOTAL_INK}'").add_params(click)
+        # The text is painted through "fill", a channel of its own: a second scale on
+        # "color" would be merged with the cells' one (Vega-Lite shares it across layers).
+        ink = alt.Fill(field="ink", type="nominal", legend=None,
+                       scale=alt.Scale(domain=list(INKS), range=list(INKS)))
         text = alt.Chart().mark_text(fontSize=11).encode(
-            x=x, y=y, text=alt.Text(field="label", type="nominal"), color=ink
+            x=x, y=y, text=alt.Text(field="label", type="nominal"), fill=ink
         )
         marks = [rect, text]
         if chosen is not None:
@@ -176,13 +194,25 @@ def heatmap_chart(
         return alt.LayerChart(
             data=inline_data(cells),
             layer=marks,
-            width=alt.Step(CELL_WIDTH),
+            width=alt.Step(cell_width(len(col_labels) + 1)),
             height=alt.Step(CELL_HEIGHT),
             title=alt.Title(f"{row_name} by {col_name}: {COLOUR_CHOICES[colour_by]}",
                             subtitle=(f"sums of the weight {weight}; " if weight else "")
                             + "totals in grey; click a cell to see its pairs"),
             background="#ffffff",
         )
+
+
+#: A plain explanation of each colouring, shown as its button's tooltip.
+COLOUR_HELP = {
+    "count": "How many units fall in each cell",
+    "row_percent": "Each cell as a share of its row: compare the rows' profiles",
+    "col_percent": "Each cell as a share of its column: compare the columns' profiles",
+    "adjusted_residual": "How far each count is from what no association would give, in "
+                         "standard units: beyond ±2 is unusual",
+    "pair_contribution": "How much each cell pushes the association up or down: the pairs "
+                         "its units form that agree in order minus those that disagree",
+}
 
 
 class HeatmapSection:
@@ -204,6 +234,8 @@ class HeatmapSection:
             options=[(name, key) for key, name in COLOUR_CHOICES.items()],
             description="colour by",
             style={"button_width": "auto"},
+            tooltips=[COLOUR_HELP[key] for key in COLOUR_CHOICES],
+            tooltip="What the cells' colours show",
         )
         self._colour.add_class("rankfold-colour-by")
         self._colour.observe(self._colour_changed, names="value")

@@ -4,13 +4,62 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 
+import ipywidgets as widgets
 import pandas as pd
 
 from rankfold import OrdinalTable, independence_label, measure_label
 
 from . import formatting
 
-__all__ = ["measures_html", "CAUTIONS"]
+__all__ = ["measures_html", "CAUTIONS", "MEASURE_HELP", "MEASURES_EXPLAINED", "MeasuresHelp"]
+
+#: A plain explanation of each row of the panel, shown as the row's tooltip (title).
+MEASURE_HELP = {
+    "gamma": "Of the pairs of units ordered differently on both variables, the share that agree "
+             "in direction minus the share that disagree. Ties are left out, so it is usually "
+             "the largest of these measures.",
+    "somers_d_col_given_row": "Like gamma, but pairs that differ on the row variable and tie on "
+                              "the column variable count against it: how well the rows predict "
+                              "the order of the columns.",
+    "somers_d_row_given_col": "Like gamma, but pairs that differ on the column variable and tie "
+                              "on the row variable count against it: how well the columns "
+                              "predict the order of the rows.",
+    "somers_d_symmetric": "The average of the two one-way Somers' d: neither variable is the one "
+                          "predicted.",
+    "tau_b": "Like gamma, but ties on either variable pull it towards 0; it reaches ±1 only in a "
+             "square table with all units on one diagonal.",
+    "tau_c": "A version of tau for tables that are not square: it can reach ±1 in any shape.",
+    "spearman_rho": "The correlation of the two variables' ranks (tied units share a rank).",
+    "polychoric": "The correlation of two normal variables assumed to lie beneath the "
+                  "categories, as if the categories cut them at fixed points.",
+    "cumulative_logit": "How much the odds of a higher column category grow with each step to "
+                        "a higher row category (on the log scale), assuming the same growth at "
+                        "every cut between column categories.",
+    "cramers_v": "Strength of any association, ignoring the order of the categories: 0 is none, "
+                 "1 is the most the table allows.",
+    "pearson_x2": "A test of whether the two variables are unrelated, ignoring their order; a "
+                  "small p says the table is unlikely if they were.",
+}
+
+#: The text behind the "what do these mean?" toggle.
+MEASURES_EXPLAINED = (
+    "<p><b>Pairs of units.</b> Take any two units. If one is higher than the other on both "
+    "variables, the pair <i>agrees</i> in order (concordant); if higher on one and lower on the "
+    "other, it <i>disagrees</i> (discordant); if they share a category on either variable, the "
+    "pair is <i>tied</i>.</p>"
+    "<p><b>Gamma</b> looks only at pairs that agree or disagree: (agree − disagree) / (agree + "
+    "disagree). It ignores ties entirely, so it is usually the largest.</p>"
+    "<p><b>Somers' d</b> also counts pairs tied on the variable being predicted, but not on the "
+    "other one: they are pairs the prediction gets wrong. It has a direction (which variable is "
+    "predicted); the symmetric version averages the two.</p>"
+    "<p><b>Tau-b</b> counts ties on both variables, so it is the smallest of the three for the "
+    "same table; tau-c adjusts it for tables that are not square.</p>"
+    "<p><b>Why merging moves them.</b> Merging two categories turns every pair that was split "
+    "between them into a tie. Gamma then loses those pairs from its count (it can rise or fall), "
+    "while Somers' d and tau-b count more ties and usually shrink. Leaving a category out "
+    "removes its units and their pairs altogether. That is why the numbers move with the coding, "
+    "and why a coding should be chosen by a rule set in advance.</p>"
+)
 
 CAUTIONS = (
     "An association, however strong, is not evidence that one variable causes the other.",
@@ -44,9 +93,14 @@ def _model_checks(tests: pd.DataFrame, slope: pd.DataFrame) -> dict[str, str]:
             "cumulative_logit": _rejected(odds_p, "the proportional-odds check rejects")}
 
 
+def _title(key: str) -> str:
+    help_text = MEASURE_HELP.get(key)
+    return f' title="{formatting.text(help_text)}"' if help_text else ""
+
+
 def _measure_row(key: str, record: pd.Series, label: str, note: str) -> str:
     return (
-        f'<tr data-measure="{key}"><th scope="row">{formatting.text(label)}</th>'
+        f'<tr data-measure="{key}"{_title(key)}><th scope="row">{formatting.text(label)}</th>'
         f'<td class="rankfold-estimate" data-measure="{key}">{formatting.estimate(record.estimate)}'
         f"</td><td>{formatting.interval(record.ci_low, record.ci_high)}</td>"
         f"<td>{formatting.p_value(record.p_value)}</td>"
@@ -106,7 +160,7 @@ def measures_html(
 
     chi = tests.loc["pearson_x2"]
     chi_row = (
-        '<tr data-measure="pearson_x2">'
+        f'<tr data-measure="pearson_x2"{_title("pearson_x2")}>'
         f'<th scope="row">{formatting.text(independence_label("pearson_x2"))}</th>'
         f'<td class="rankfold-estimate" data-measure="pearson_x2">'
         f"{formatting.estimate(chi.statistic)}</td><td>df = {formatting.amount(chi.df)}</td>"
@@ -147,3 +201,23 @@ def measures_html(
         + "</tbody></table>" + warning_html
         + f'<ul class="rankfold-cautions">{cautions}</ul></div>'
     )
+
+
+class MeasuresHelp:
+    """A "what do these mean?" toggle that shows :data:`MEASURES_EXPLAINED` below it."""
+
+    def __init__(self) -> None:
+        self._toggle = widgets.ToggleButton(
+            value=False, description="what do these mean?", icon="question",
+            tooltip="Show or hide a plain explanation of gamma, Somers' d and tau-b, and why "
+                    "merging categories moves them",
+            layout=widgets.Layout(width="auto", min_width="fit-content",
+                                  align_self="flex-start"))
+        self._toggle.add_class("rankfold-measures-help-toggle")
+        self._text = widgets.HTML(MEASURES_EXPLAINED, layout=widgets.Layout(display="none"))
+        self._text.add_class("rankfold-measures-help")
+        self._toggle.observe(self._flip, names="value")
+        self.widget = widgets.VBox([self._toggle, self._text])
+
+    def _flip(self, change: dict) -> None:
+        self._text.layout.display = None if change["new"] else "none"

@@ -14,12 +14,13 @@ from rankfold.pair_regions import REGIONS
 
 from . import formatting
 from .chart_pane import CLICK, ChartPane, building, inline_data
-from .heatmap import CELL_HEIGHT, CELL_WIDTH, grid_axes
+from .heatmap import CELL_HEIGHT, INKS, cell_width, grid_axes
+from .pickers import labelled
 
 if TYPE_CHECKING:
     from .render import Rendered
 
-__all__ = ["pair_chart", "pair_table_html", "PairSection"]
+__all__ = ["pair_chart", "pair_table_html", "PairSection", "ink_for", "relative_luminance"]
 
 # The chart legend: concordant, discordant, tied (any tie), and the chosen cell itself.
 _SHOWN = {key: kind.split()[0] for key, kind in REGIONS.items()} | {"same_cell": "chosen cell"}
@@ -34,6 +35,45 @@ _WHERE = {
     "same_col": "same {col} category, other {row} category",
     "same_cell": "the chosen cell itself",
 }
+
+
+def relative_luminance(colour: str) -> float:
+    """Relative luminance of a ``#rrggbb`` colour, from 0 (black) to 1 (white).
+
+    Parameters
+    ----------
+    colour : str
+        A hex colour such as ``"#3a78b5"``.
+
+    Returns
+    -------
+    float
+        ``0.2126 R + 0.7152 G + 0.0722 B`` of the linearised sRGB channels (W3C, Web Content
+        Accessibility Guidelines 2.1, definition of relative luminance).
+    """
+    channels = [int(colour[k:k + 2], 16) / 255 for k in (1, 3, 5)]
+    linear = [c / 12.92 if c <= 0.04045 else ((c + 0.055) / 1.055) ** 2.4 for c in channels]
+    return 0.2126 * linear[0] + 0.7152 * linear[1] + 0.0722 * linear[2]
+
+
+def ink_for(colour: str) -> str:
+    """Text colour readable on a cell of ``colour``: white on dark cells, near-black on light.
+
+    Parameters
+    ----------
+    colour : str
+        The cell's ``#rrggbb`` colour.
+
+    Returns
+    -------
+    str
+        ``"#ffffff"`` or ``"#1a1a1a"``, whichever has the larger contrast ratio
+        ``(L1 + 0.05) / (L2 + 0.05)`` with the cell (WCAG 2.1).
+    """
+    cell = relative_luminance(colour)
+    on_white = 1.05 / (cell + 0.05)
+    on_dark = (cell + 0.05) / (relative_luminance("#1a1a1a") + 0.05)
+    return "#ffffff" if on_white >= on_dark else "#1a1a1a"
 
 
 def pair_chart(
@@ -63,6 +103,8 @@ def pair_chart(
          "kind": _SHOWN[regions.cell_region[r.row_position, r.col_position]]}
         for r in figures.itertuples(index=False)
     ]
+    for cell in cells:
+        cell["ink"] = ink_for(_COLOURS[cell["kind"]])
     chosen = cells[regions.row * len(dict.fromkeys(figures["col"])) + regions.col]
     kinds = list(_COLOURS)
     with building():
@@ -74,15 +116,17 @@ def pair_chart(
         rect = alt.Chart().mark_rect(stroke="#ffffff", strokeWidth=1, cursor="pointer").encode(
             x=x, y=y, color=colour
         ).add_params(click)
-        ink = alt.Color(field="kind", type="nominal", legend=None, scale=alt.Scale(
-            domain=kinds, range=["#ffffff", "#1a1a1a", "#1a1a1a", "#ffffff"]))
+        # The text is painted through "fill", a channel of its own: a second scale on "color"
+        # would be merged with the cells' one and paint the numbers in the cell's colour.
+        ink = alt.Fill(field="ink", type="nominal", legend=None,
+                       scale=alt.Scale(domain=list(INKS), range=list(INKS)))
         numbers = alt.Chart().mark_text(fontSize=11).encode(
-            x=x, y=y, text=alt.Text(field="count", type="nominal"), color=ink
+            x=x, y=y, text=alt.Text(field="count", type="nominal"), fill=ink
         )
         return alt.LayerChart(
             data=inline_data(cells),
             layer=[rect, numbers],
-            width=alt.Step(CELL_WIDTH),
+            width=alt.Step(cell_width(len(dict.fromkeys(figures["col"])))),
             height=alt.Step(CELL_HEIGHT),
             title=alt.Title(f"Pairs with a unit in ({chosen['row']}, {chosen['col']})",
                             subtitle="numbers are units per cell; click another cell to move"),
@@ -147,7 +191,9 @@ class PairSection:
     def __init__(self, propose: Callable, notify: Callable) -> None:
         self._propose = propose
         self._rendered = None
-        self._cell = widgets.Dropdown(description="cell", options=[("(choose a cell)", None)])
+        self._cell = widgets.Dropdown(
+            description="cell", options=[("(choose a cell)", None)],
+            tooltip="The cell whose pairs are shown (or click a cell in either chart)")
         self._cell.add_class("rankfold-pair-cell")
         self._cell.observe(self._picked, names="value")
         self._pane = ChartPane(
@@ -157,7 +203,8 @@ class PairSection:
         )
         self._table = widgets.HTML()
         self._table.add_class("rankfold-pair-summary")
-        self.widget = widgets.VBox([self._cell, self._pane.widget, self._table])
+        self.widget = widgets.VBox([labelled(self._cell, "cell", self._cell.tooltip),
+                                    self._pane.widget, self._table])
 
     def show(self, rendered: Rendered) -> None:
         """Display the rendered state."""

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import html
 from collections.abc import Callable, Hashable, Mapping, Sequence
 from typing import TYPE_CHECKING
 
@@ -14,7 +15,7 @@ if TYPE_CHECKING:
     from .render import Rendered
 
 __all__ = ["orderable_columns", "control_columns", "weight_columns", "holds_two_values",
-           "VariablePickers"]
+           "VariablePickers", "labelled"]
 
 #: Values looked at to tell cheaply whether a long column has too many distinct values.
 SAMPLE = 1 << 14
@@ -22,6 +23,34 @@ SAMPLE = 1 << 14
 #: The value behind "none" in the control and weight pickers. Not None: ipywidgets reads a
 #: Dropdown value of None as "nothing selected" and would then show the picker blank.
 _NONE = object()
+
+
+def labelled(control: widgets.DOMWidget, label: str, tooltip: str) -> widgets.HBox:
+    """A control with its label beside it, both showing ``tooltip`` on hover.
+
+    ipywidgets shows a Dropdown's tooltip only when the Dropdown has no description of its own,
+    so the label is a separate element carrying the same title.
+
+    Parameters
+    ----------
+    control : ipywidgets.DOMWidget
+        The control (its ``description`` is left empty).
+    label : str
+        The words before it.
+    tooltip : str
+        A short plain explanation.
+
+    Returns
+    -------
+    ipywidgets.HBox
+        Label and control side by side.
+    """
+    control.description = ""
+    control.tooltip = tooltip
+    text = widgets.HTML(f'<span class="rankfold-label" title="{html.escape(tooltip)}">'
+                        f"{html.escape(label)}</span>")
+    return widgets.HBox([text, control], layout=widgets.Layout(align_items="center",
+                                                               margin="0 8px 0 0"))
 
 
 def _column(value: object) -> str | None:
@@ -143,10 +172,15 @@ class VariablePickers:
     def __init__(self, columns: list[str], propose: Callable, controls: Sequence[str] = (),
                  weights: Sequence[str] = ()) -> None:
         wide = {"description_width": "initial"}
-        self._row = widgets.Dropdown(options=columns, description="down the side", style=wide)
-        self._col = widgets.Dropdown(options=columns, description="across the top", style=wide)
-        self._swap = widgets.Button(description="swap ⇄", tooltip="Exchange rows and columns",
-                                    layout=widgets.Layout(width="auto"))
+        self._row = widgets.Dropdown(
+            options=columns, description="down the side", style=wide,
+            tooltip="The variable whose categories are the table's rows")
+        self._col = widgets.Dropdown(
+            options=columns, description="across the top", style=wide,
+            tooltip="The variable whose categories are the table's columns")
+        self._swap = widgets.Button(
+            description="swap ⇄", layout=widgets.Layout(width="auto"),
+            tooltip="Exchange rows and columns (the measures that treat both alike stay the same)")
         for widget, css in ((self._row, "rankfold-row-picker"), (self._col, "rankfold-col-picker"),
                             (self._swap, "rankfold-swap")):
             widget.add_class(css)
@@ -154,14 +188,21 @@ class VariablePickers:
         self._col.observe(lambda c: propose(lambda s: _pick(s, col=c["new"])), names="value")
         self._swap.on_click(lambda _: propose(lambda s: s.swapped()))
         self._control = widgets.Dropdown(options=[("none", _NONE), *((c, c) for c in controls)],
-                                       description="control for", style=wide)
+                                       description="control for", style=wide,
+                                       tooltip="A third variable to hold fixed: the tab 'Within "
+                                               "each level' shows the association inside each of "
+                                               "its categories")
         self._weight = widgets.Dropdown(options=[("none", _NONE), *((c, c) for c in weights)],
-                                        description="weight")
+                                        description="weight",
+                                        tooltip="A column that says how much each row counts "
+                                                "(none: every row counts once)")
         self._kind = widgets.Dropdown(
-            options=[("frequency: a row is w units", "frequency"),
-                     ("sampling: survey weights", "sampling")],
+            options=[("repeat counts", "frequency"), ("survey weights", "sampling")],
             description="weights are",
             style={"description_width": "initial"},
+            tooltip="Repeat counts: a row with weight 3 stands for 3 identical units. Survey "
+                    "weights: each row is one respondent, weighted to stand for the population "
+                    "(the intervals then allow for the weights)",
         )
         for widget, css in ((self._control, "rankfold-control-picker"),
                             (self._weight, "rankfold-weight-picker"),
@@ -176,8 +217,11 @@ class VariablePickers:
             names="value")
         self._kind.observe(lambda c: propose(lambda s: s.with_roles(weight_kind=c["new"])),
                            names="value")
+        shown = [labelled(w, w.description, w.tooltip) if isinstance(w, widgets.Dropdown) else w
+                 for w in (self._row, self._col, self._swap, self._control, self._weight,
+                           self._kind)]
         self.widget = widgets.HBox(
-            [self._row, self._col, self._swap, self._control, self._weight, self._kind],
+            shown,
             layout=widgets.Layout(flex_flow="row wrap"),
         )
         self.widget.add_class("rankfold-pickers")

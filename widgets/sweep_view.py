@@ -55,6 +55,8 @@ FAILS = "does not meet it"
 _RULE_COLOURS = {MEETS: "#1b8a5a", FAILS: "#9a9a9a"}
 ROLES = {"as collected": ("#222222", "circle"), "current coding": ("#3a78b5", "diamond"),
          "suggested": ("#d9822b", "square")}
+#: Buttons as wide as their text ("auto" alone lets a flex row squeeze them to "Sweep every co…").
+_WHOLE_TEXT = {"width": "auto", "min_width": "fit-content", "flex": "0 0 auto"}
 _HALF = 0.42  # half the width of a strip, in category units
 _GOLDEN = (np.sqrt(5) - 1) / 2
 
@@ -308,7 +310,7 @@ def sweep_chart(
                                                 range=[s for _, s in ROLES.values()])),
                 tooltip=[alt.Tooltip("role:N", title="coding"), *tooltip])
     )
-    chart = alt.layer(*parts, data=alt.Data(values=_records(data)), width=460, height=120)
+    chart = alt.layer(*parts, data=alt.Data(values=_records(data)), width=380, height=120)
     if points:
         # Fold the estimate columns into (key, estimate) rows, then name each key; labels stay
         # out of field names, where quotes and dots would need escaping.
@@ -319,8 +321,11 @@ def sweep_chart(
             lookup="key", from_=names)
     return (
         chart.facet(row=alt.Row("measure:N", sort=list(labels.values()), title=None,
+                                # each measure's name above its strip, not beside it: the
+                                # chart then fits a narrow tab
                                 header=alt.Header(labelAngle=0, labelAlign="left",
-                                                  labelLimit=220)))
+                                                  labelOrient="top", labelAnchor="start",
+                                                  labelFontWeight="bold", labelLimit=420)))
         .resolve_scale(y="independent")
         .properties(title=alt.Title(
             "Every coding by merging neighbouring categories",
@@ -402,12 +407,14 @@ class SweepSection:
         self._summary = widgets.HTML()
         self._summary.add_class("rankfold-sweep-summary")
         # width "auto": the default width cuts the descriptions short
-        self._run = widgets.Button(description="Sweep every coding", icon="play",
-                                   layout=widgets.Layout(width="auto"))
+        self._run = widgets.Button(
+            description="Sweep every coding", icon="play", layout=_WHOLE_TEXT,
+            tooltip="Compute the measures for every way of merging neighbouring categories")
         self._run.add_class("rankfold-sweep-run")
         self._run.on_click(lambda _: self._sweep_now())
-        self._use = widgets.Button(description="Use the suggested coding", icon="check",
-                                   layout=widgets.Layout(width="auto"))
+        self._use = widgets.Button(
+            description="Use the suggested coding", icon="check", layout=_WHOLE_TEXT,
+            tooltip="Apply the merges suggested from cell counts alone (not from the results)")
         self._use.add_class("rankfold-sweep-use")
         self._use.on_click(lambda _: self._apply_suggestion())
         self._bar = widgets.IntProgress(min=0, max=1, value=0, description="codings",
@@ -415,7 +422,10 @@ class SweepSection:
         self._bar.add_class("rankfold-sweep-progress")
         self._pane = ChartPane("rankfold-sweep", on_click=self._clicked)
         self.widget = widgets.VBox([
-            self._summary, widgets.HBox([self._run, self._use, self._bar]), self._pane.widget,
+            self._summary,
+            widgets.HBox([self._run, self._use, self._bar],
+                         layout=widgets.Layout(flex_flow="row wrap")),
+            self._pane.widget,
         ])
 
     # ------------------------------------------------------------------ showing

@@ -23,7 +23,7 @@ from rankfold import OrdinalTable
 
 from . import formatting
 from .chart_pane import ChartPane
-from .heatmap import CELL_WIDTH, heatmap_chart
+from .heatmap import cell_width, heatmap_chart
 
 if TYPE_CHECKING:
     from .render import Rendered
@@ -39,7 +39,7 @@ CONTROL_CAUTIONS = (
 )
 #: Widest grid of heatmaps (one per level), in pixels, before the next heatmap goes below (about the
 #: width a notebook leaves for the explorer's tabs).
-GRID_WIDTH = 900
+GRID_WIDTH = 600
 _ROW_LABELS_WIDTH = 180  # row labels and axis title beside each heatmap
 
 _NO_CONTROL = (
@@ -72,7 +72,8 @@ def level_heatmaps(table: OrdinalTable, colour_by: str,
     parts = [(label, rankfold.cell_figures(table.control_table(label)))
              for label in table.control_labels]
     if columns is None:
-        width = CELL_WIDTH * (len(table.col_labels) + 1) + _ROW_LABELS_WIDTH  # + totals column
+        shown = len(table.col_labels) + 1  # + totals column
+        width = cell_width(shown) * shown + _ROW_LABELS_WIDTH
         columns = max(1, GRID_WIDTH // width)
     values = pd.concat([figures[colour_by] for _, figures in parts]).astype(float).abs()
     shared = float(values.max()) if values.notna().any() else 0.0

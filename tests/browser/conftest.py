@@ -1,6 +1,6 @@
 """Fixtures that put notebooks in front of a real browser: a private JupyterLab server on
 127.0.0.1 and headless Debian Chromium driven by Playwright, with guards that fail a test on any
-request leaving the machine and on any browser console error.
+request leaving the machine and on any browser console error or Vega warning.
 
 Chromium comes from Debian (``apt-get install chromium``); Playwright's own browser download is
 not used. Without Chromium the browser tests are skipped locally and fail when ``CI`` is set.
@@ -45,6 +45,9 @@ LOCAL_HOST = "127.0.0.1"
 SERVER_START_TIMEOUT = 90  # seconds
 UI_TIMEOUT_MS = 90_000  # the longest any one awaited condition in the page may take
 TRACEBACK = "Traceback (most recent call last)"
+# Vega and Vega-Lite log their warnings to the console as "WARN <text>" (vega-util's logger),
+# e.g. "WARN Conflicting scale property \"range\" ..."; the guard counts them as errors.
+VEGA_WARNING = re.compile(r"^\s*(\[?vega|WARN\b)", re.IGNORECASE)
 # The status bar's kernel item, e.g. "Python 3 (ipykernel) | Idle"; it reads
 # "No Kernel | Initializing" until the kernel has started.
 KERNEL_IDLE = re.compile(r"^(?!No Kernel).*\| Idle$")
@@ -120,7 +123,8 @@ def is_local(url: str) -> bool:
 
 @dataclass
 class PageGuard:
-    """What a page tried that a test must not allow: outside requests and console errors."""
+    """What a page tried that a test must not allow: outside requests, console errors and
+    Vega warnings."""
 
     outside_requests: list[str] = field(default_factory=list)
     console_errors: list[str] = field(default_factory=list)
@@ -153,7 +157,8 @@ def guarded(browser) -> Iterator[tuple[Any, PageGuard]]:
         socket_route.close()
 
     def console(message) -> None:
-        if message.type == "error":
+        if message.type == "error" or (message.type == "warning"
+                                        and VEGA_WARNING.search(message.text)):
             guard.console_errors.append(f"{message.text} (at {message.location.get('url')})")
 
     context.route("**/*", route)

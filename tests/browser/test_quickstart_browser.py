@@ -66,6 +66,8 @@ def test_offline_and_console_guards_catch_what_they_must(guarded_context) -> Non
                 const socket = new WebSocket('ws://rankfold-offline-check.invalid/socket');
                 await new Promise((done) => { socket.onclose = done; socket.onerror = done; });
                 console.error('rankfold guard check');
+                console.warn('WARN Conflicting scale property "range" (rankfold guard check)');
+                console.warn('an unrelated warning');
             }"""
         )
     assert guard.outside_requests == [
@@ -73,6 +75,9 @@ def test_offline_and_console_guards_catch_what_they_must(guarded_context) -> Non
         "ws://rankfold-offline-check.invalid/socket",
     ]
     assert any("rankfold guard check" in e for e in guard.console_errors)
+    # Vega's warnings fail a test too; other warnings do not.
+    assert any("Conflicting scale property" in e for e in guard.console_errors)
+    assert not any("unrelated" in e for e in guard.console_errors)
 
 
 def test_quickstart_explorer_in_the_browser(open_notebook, lab_server, tmp_path,
