@@ -270,21 +270,19 @@ def sweep_chart(
     if points:
         data = _point_data(frame, labels, x, meets, marks)
         pick = alt.selection_point(name=CLICK, fields=["row_cuts", "col_cuts"], on="click")
-        parts.append(
-            base.transform_filter("datum.kind == 'coding' && isValid(datum.estimate)")
-            .mark_circle(size=22, opacity=0.6)
-            .encode(x=x_enc, y=alt.Y("estimate:Q", title=None, scale=y_scale), color=colour,
-                    tooltip=[*tooltip, alt.Tooltip("rule:N", title="sparse cells")])
-            .add_params(pick)
-        )
-        # a dark ring: this coding's change from the swept table exceeds its noise (paired
-        # delta method, |change| > 1.96 SE)
+        # A dark ring marks a coding whose change from the swept table exceeds its noise
+        # (paired delta method, |change| > 1.96 SE). Drawn by the points' own stroke: a layer
+        # of its own would be empty in some measures' strips, which Vega warns about.
+        beyond = "datum.beyond == 1"
         parts.append(
             base.transform_calculate(beyond=f"datum[datum.key + '{BEYOND}']")
-            .transform_filter("datum.kind == 'coding' && datum.beyond == 1 && "
-                              "isValid(datum.estimate)")
-            .mark_point(filled=False, size=60, strokeWidth=1.2, color="#222222")
-            .encode(x=x_enc, y=alt.Y("estimate:Q", scale=y_scale))
+            .transform_filter("datum.kind == 'coding' && isValid(datum.estimate)")
+            .mark_circle(opacity=0.6, strokeWidth=1.2)
+            .encode(x=x_enc, y=alt.Y("estimate:Q", title=None, scale=y_scale), color=colour,
+                    size=alt.condition(beyond, alt.value(60), alt.value(22)),
+                    stroke=alt.condition(beyond, alt.value("#222222"), alt.value(None)),
+                    tooltip=[*tooltip, alt.Tooltip("rule:N", title="sparse cells")])
+            .add_params(pick)
         )
     else:
         data = _range_data(frame, labels, x, meets, marks)
