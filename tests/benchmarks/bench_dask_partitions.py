@@ -16,9 +16,9 @@ import argparse
 import os
 import shutil
 import tempfile
-import time
 
 import numpy as np
+from timing import best_of
 
 ROW_GROUP = 1_000_000
 
@@ -33,15 +33,6 @@ def write_file(path: str, rows: int, seed: int = 3) -> None:
     weight = np.round(rng.uniform(0.3, 3.0, rows), 4)
     pq.write_table(pa.table({"income_band": band, "satisfaction": score, "weight": weight}),
                    path, row_group_size=ROW_GROUP)
-
-
-def best(run, repeats: int = 3) -> float:
-    times = []
-    for _ in range(repeats):
-        start = time.perf_counter()
-        run()
-        times.append(time.perf_counter() - start)
-    return min(times)
 
 
 def main() -> None:
@@ -64,10 +55,10 @@ def main() -> None:
         with Client(cluster):
             default = dd.read_parquet(path)
             split = dd.read_parquet(path, split_row_groups=True)
-            t_default = best(lambda: rankfold.table(default, **call))
-            t_split = best(lambda: rankfold.table(split, **call))
+            t_default = best_of(3, lambda: rankfold.table(default, **call))
+            t_split = best_of(3, lambda: rankfold.table(split, **call))
         cluster.close()
-        t_pandas = best(lambda: rankfold.table(pd.read_parquet(path), **call))
+        t_pandas = best_of(3, lambda: rankfold.table(pd.read_parquet(path), **call))
     finally:
         shutil.rmtree(folder)
     print(f"{args.rows:,} records in one Parquet file, row groups of {ROW_GROUP:,}")

@@ -60,21 +60,14 @@ def write_invented_file(path: str, rows: int, seed: int = 50) -> None:
 def weighted_query_overhead(path: str, repeats: int = 3) -> None:
     """rankfold's weighted DuckDB count against a minimal GROUP BY with count, sum w, sum w^2."""
     import duckdb
+    from timing import best_of
 
     import rankfold
 
-    def best(run) -> float:
-        times = []
-        for _ in range(repeats):
-            start = time.perf_counter()
-            run()
-            times.append(time.perf_counter() - start)
-        return min(times)
-
-    minimal = best(lambda: duckdb.sql(
+    minimal = best_of(repeats, lambda: duckdb.sql(
         f"SELECT income_band, satisfaction, count(*), sum(weight), sum(weight * weight) "
         f"FROM read_parquet('{path}') GROUP BY ALL").df())
-    ours = best(lambda: rankfold.table(path, **CALL))
+    ours = best_of(repeats, lambda: rankfold.table(path, **CALL))
     print(f"weighted count: rankfold.table {ours:.2f} s, minimal DuckDB GROUP BY {minimal:.2f} s "
           f"({ours / minimal:.2f}x the minimal query; goal at most 1.3x)\n")
 

@@ -16,6 +16,7 @@ import tracemalloc
 
 import numpy as np
 from scipy import stats
+from timing import best_of
 
 import rankfold
 
@@ -27,15 +28,6 @@ def invented_table(side: int, seed: int) -> rankfold.OrdinalTable:
     grid = np.outer(np.linspace(-1, 1, side), np.linspace(-1, 1, side))
     mean = rng.uniform(2, 40, size=(side, side)) * np.exp(0.8 * grid)
     return rankfold.table_from_counts(rng.poisson(mean))
-
-
-def best_of(repeats: int, run) -> float:
-    times = []
-    for _ in range(repeats):
-        start = time.perf_counter()
-        run()
-        times.append(time.perf_counter() - start)
-    return min(times)
 
 
 def starts(cuts: int, size: int) -> np.ndarray:
