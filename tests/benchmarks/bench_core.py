@@ -28,24 +28,19 @@ processes on a shared machine.
 
 from __future__ import annotations
 
-import time
 import tracemalloc
 
 import numpy as np
 import pandas as pd
 from scipy import stats
+from timing import best_of
 
 import rankfold
 from rankfold.ordinal_measures import ordinal_measure_arrays
 
 
 def best_time(func, repeats: int) -> float:
-    best = np.inf
-    for _ in range(repeats):
-        start = time.perf_counter()
-        func()
-        best = min(best, time.perf_counter() - start)
-    return best
+    return best_of(repeats, func)
 
 
 def invented_records(size: int, seed: int = 2024) -> pd.DataFrame:

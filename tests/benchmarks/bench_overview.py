@@ -13,7 +13,7 @@ from itertools import combinations
 
 import numpy as np
 import pandas as pd
-from bench_sweep import best_of  # the scripts' own folder is first on the path when run
+from timing import best_of  # the scripts' own folder is first on the path when run
 
 import rankfold
 
