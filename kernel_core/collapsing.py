@@ -415,18 +415,39 @@ def _check_measures(table: OrdinalTable, measures: Sequence[str]) -> tuple[str, 
 
 
 class _ChangeBase:
-    """The swept table's own measures and gradients, for each coding's paired change."""
+    """The swept table's own measures and gradients, for each coding's paired change.
+
+    Variances run over every cell of every level of the control variable as one sample (the
+    level of a unit random), as :func:`rankfold.coding_change.coding_change` does.
+    """
 
     def __init__(self, table: OrdinalTable, measures: tuple[str, ...]) -> None:
-        self.counts = table.cells.sum(axis=0).astype(float)
+        cells = table.cells.astype(float)
+        self.levels = cells.shape[0]
+        self.counts = cells.reshape(-1, cells.shape[-1])  # (K * I, J)
         self.sampling = Sampling()
+        pooled = Sampling()
         if table.squared_weights is not None:
-            self.sampling = Sampling(table.squared_weights.sum(axis=0),
-                                     float(np.asarray(table.records).sum()))
-        found = ordinal_measure_arrays(self.counts, self.sampling, gradients=True)
+            records = float(np.asarray(table.records).sum())
+            squared = np.asarray(table.squared_weights, dtype=float)
+            self.sampling = Sampling(squared.reshape(self.counts.shape), records)
+            pooled = Sampling(squared.sum(axis=0), records)
+        found = ordinal_measure_arrays(cells.sum(axis=0), pooled, gradients=True)
         if "polychoric" in measures:
-            found["polychoric"] = polychoric_arrays(self.counts, self.sampling)
+            found["polychoric"] = polychoric_arrays(cells.sum(axis=0), pooled)
+        if PARTIAL in measures:
+            weights = None if table.squared_weights is None else Sampling(
+                table.squared_weights, np.asarray(table.records, float).sum(axis=(-2, -1)))
+            found[PARTIAL] = partial_gamma_arrays(cells, weights)
         self.found = found
+
+    def _whole(self, gradient: np.ndarray, batch: int) -> np.ndarray:
+        """A gradient of the pooled (..., I, J) or the levels' (..., K, I, J) cells, as
+        (..., K * I, J)."""
+        g = np.asarray(gradient, dtype=float)
+        if g.ndim == (3 if batch else 2):  # pooled: the same in every level
+            g = np.broadcast_to(g[..., None, :, :], (*g.shape[:-2], self.levels, *g.shape[-2:]))
+        return g.reshape(*g.shape[:-3], -1, g.shape[-1])
 
     def change(self, key: str, estimate: np.ndarray, gradient: np.ndarray | None,
                row_groups: np.ndarray, col_groups: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -440,9 +461,12 @@ class _ChangeBase:
         if base is None or gradient is None:  # no gradient for this measure (yet): NaN
             return np.full(estimate.shape, np.nan), np.full(estimate.shape, np.nan)
         change = estimate - float(base["estimate"])
-        carried = np.take_along_axis(gradient, row_groups[:, :, None], axis=1)
-        carried = np.take_along_axis(carried, col_groups[:, None, :], axis=2)
-        se = np.sqrt(delta_variance(self.counts, carried - base["gradient"], self.sampling))
+        g = np.asarray(gradient, dtype=float)
+        spread = (slice(None),) + (None,) * (g.ndim - 3)  # over the levels, if any
+        carried = np.take_along_axis(g, row_groups[spread + (slice(None), None)], axis=-2)
+        carried = np.take_along_axis(carried, col_groups[spread + (None, slice(None))], axis=-1)
+        difference = self._whole(carried, batch=True) - self._whole(base["gradient"], batch=False)
+        se = np.sqrt(delta_variance(self.counts, difference, self.sampling))
         return change, np.where(np.isnan(change), np.nan, se)
 
 
@@ -604,7 +628,7 @@ def sweep(
         (``<key>_change_se``; see :func:`rankfold.coding_change.coding_change`): both come
         from the same units, so this error is far smaller than either estimate's. Pass
         ``t.collected`` to measure changes from the table as collected. Not (yet) for
-        ``cumulative_logit`` and ``partial_gamma``, whose columns are then NaN.
+        ``cumulative_logit``, whose change columns are then NaN.
 
     Returns
     -------

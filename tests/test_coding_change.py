@@ -249,3 +249,23 @@ def test_two_by_two_measures_change_between_two_codings():
     assert found.loc["yules_q", "change_se"] == pytest.approx(np.std(q[1] - q[0], ddof=1),
                                                               rel=0.05)
     assert "logarithm" in found.loc["odds_ratio", "change_note"]
+
+
+def test_sweep_changes_of_partial_gamma_equal_the_paired_change():
+    # a table with a control variable: each coding's partial gamma change from the sweep
+    # equals coding_change of that coding measured alone (random level of each unit)
+    cells = np.stack([COLLECTED[:4, :4] * f for f in (0.6, 0.4)]).round()
+    frame = pd.DataFrame(
+        [(lvl, r, c) for lvl in range(2) for i, r in enumerate(ROWS[:4])
+         for j, c in enumerate(COLS[:4]) for _ in range(int(cells[lvl, i, j]))],
+        columns=["level", "row", "col"])
+    t = rankfold.table(frame, "row", "col", control="level",
+                       order={"row": ROWS[:4], "col": COLS[:4]})
+    swept = rankfold.sweep(t, changes=True, measures=("gamma", "partial_gamma"))
+    for k in (1, 7, 20, len(swept) - 3):
+        row = swept.iloc[k]
+        coded = rankfold.apply_coding(t, int(row["row_cuts"]), int(row["col_cuts"]))
+        direct = coding_change(t, coded)
+        for key in ("gamma", "partial_gamma"):
+            assert row[f"{key}_change_se"] == pytest.approx(direct.loc[key, "change_se"],
+                                                            rel=1e-9, abs=1e-15)
