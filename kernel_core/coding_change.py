@@ -88,13 +88,6 @@ def expand_gradient(gradient: np.ndarray, rows: np.ndarray, cols: np.ndarray) ->
     return np.where(kept, picked, 0.0)
 
 
-def _pooled(table: OrdinalTable) -> tuple[np.ndarray, Sampling]:
-    counts = table.cells.sum(axis=0).astype(float)
-    if table.squared_weights is None:
-        return counts, Sampling()
-    return counts, Sampling(table.squared_weights.sum(axis=0), float(table.records.sum()))
-
-
 def _whole(table: OrdinalTable) -> tuple[np.ndarray, Sampling]:
     """Every cell of every level as one table (K * I, J): one sample, whatever the level."""
     def flat(cells: np.ndarray) -> np.ndarray:
@@ -122,7 +115,7 @@ def measure_gradients(table: OrdinalTable) -> dict[str, dict]:
         errors refer to the logarithm of the estimate).
     """
     measures = table.measures()
-    counts, sampling = _pooled(table)
+    counts, sampling = table._pooled().astype(float), table._sampling()
     gradients = {k: v["gradient"] for k, v in
                  ordinal_measure_arrays(counts, sampling, gradients=True).items()}
     gradients["polychoric"] = polychoric_arrays(counts, sampling)["gradient"]

@@ -15,7 +15,7 @@ import ipywidgets as widgets
 import pandas as pd
 
 from rankfold import OrdinalTable, measure_label
-from rankfold.worked_formulas import step_change, table_before_last_step, worked_numbers
+from rankfold.worked_formulas import step_change, worked_numbers
 
 from . import formatting
 
@@ -217,8 +217,5 @@ class ComputationSection:
 
     def show(self, rendered: Rendered) -> None:
         """Write out the current table's formulas and its last step's effect."""
-        try:
-            before = table_before_last_step(rendered.collected, rendered.table)
-            self._html.value = computation_html(rendered.table, rendered.measures, before)
-        except ValueError as err:
-            self._html.value = f'<p class="rankfold-hint">{formatting.text(err)}</p>'
+        self._html.value = computation_html(rendered.table, rendered.measures,
+                                            rendered.before_last_step)

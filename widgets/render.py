@@ -102,6 +102,11 @@ class Rendered:
     source: TableCache = field(repr=False, compare=False)
     _charts: dict = field(default_factory=dict, repr=False, compare=False)
 
+    @property
+    def before_last_step(self) -> OrdinalTable | None:
+        """The table before the state's last coding step; None when there is no step."""
+        return self.previous if self.state.edits else None
+
     def chart(self, name: str) -> alt.TopLevelMixin | None:
         """The named chart (one of :data:`CHARTS`), built on first request; None for the pair
         chart while no cell is chosen."""

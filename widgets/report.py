@@ -15,7 +15,6 @@ import pandas as pd
 import rankfold
 from rankfold import OrdinalTable, independence_label, measure_label
 from rankfold.collapsing import range_sentence, sweep_ranges
-from rankfold.worked_formulas import table_before_last_step
 
 from . import formatting
 from .computation_view import computation_html
@@ -279,9 +278,9 @@ def rendered_report(rendered: Rendered, path: str | Path, sweep: pd.DataFrame | 
         "Each measure as collected and with the current coding": rendered.chart("comparison"),
         "Pairs around the chosen cell": rendered.chart("pairs"),
     }
-    before = table_before_last_step(rendered.collected, rendered.table)
     text = report_html(rendered.table, measures=rendered.measures, tests=rendered.tests,
-                       charts=charts, sweep=sweep, before=before, left_out=rendered.left_out,
+                       charts=charts, sweep=sweep, before=rendered.before_last_step,
+                       left_out=rendered.left_out,
                        records=records)
     target = free_path(path)
     target.write_text(text, encoding="utf-8")
