@@ -2,7 +2,8 @@
 
 Altair 6 emits Vega-Lite 6, which JupyterLab 4's built-in renderer does not know, and a plainly
 displayed chart would fetch Vega from the internet. :class:`altair.JupyterChart` in offline
-mode bundles Vega through vl-convert, so charts render with no network at all.
+mode bundles Vega through vl-convert, so charts render with no network at all; the bundle is
+made once per version and kept on disk (:mod:`rankfold.widgets.offline_script`).
 """
 
 from __future__ import annotations
@@ -16,6 +17,8 @@ import altair as alt
 import ipywidgets as widgets
 from altair.utils.schemapi import debug_mode
 from altair.utils.selection import PointSelection
+
+from .offline_script import offline_chart_class
 
 __all__ = ["ChartPane", "CLICK", "building", "inline_data"]
 
@@ -51,11 +54,6 @@ def inline_data(records: Sequence[dict[str, Any]]) -> alt.Data:
     return alt.Data(values=json.dumps(list(records)), format=alt.DataFormat(type="json"))
 
 
-def _offline_chart_class() -> type[alt.JupyterChart]:
-    alt.JupyterChart.enable_offline()
-    return alt.JupyterChart
-
-
 class ChartPane:
     """Shows one chart at a time; a new chart replaces the old one in place.
 
@@ -80,7 +78,7 @@ class ChartPane:
         selection: str = CLICK,
     ) -> None:
         self._selection = selection
-        self._chart = _offline_chart_class()(None, embed_options=_EMBED_OPTIONS)
+        self._chart = offline_chart_class()(None, embed_options=_EMBED_OPTIONS)
         self._placeholder = widgets.HTML(placeholder)
         self.widget = widgets.Box([self._placeholder])
         self.widget.add_class(css_class)
