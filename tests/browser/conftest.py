@@ -358,6 +358,20 @@ class NotebookPage:
         self.page.locator(".jp-SideBar.jp-mod-left .lm-TabBar-tab.lm-mod-current").click()
         self.page.locator("#jp-left-stack").wait_for(state="hidden")
 
+    def first_explorer(self) -> Any:
+        """The first explorer in the notebook's output, once its heatmap is drawn."""
+        explorer = self.page.locator(".jp-OutputArea-output .rankfold-explorer").first
+        explorer.locator(".rankfold-heatmap .mark-rect path").first.wait_for()
+        return explorer
+
+    def run_whole_explorer_in_view(self) -> Any:
+        """On a page tall and wide enough for the whole explorer, with the side panel folded,
+        run every cell; return the first explorer once drawn."""
+        self.page.set_viewport_size({"width": 1500, "height": 2000})
+        self.close_left_sidebar()
+        self.run_all_cells()
+        return self.first_explorer()
+
 
 def open_in(server: LabServer, page, source: Path) -> NotebookPage:
     """Copy a notebook into the server's root and open it in ``page``; in JupyterLab, wait

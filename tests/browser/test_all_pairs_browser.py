@@ -22,12 +22,7 @@ def test_all_pairs_map_opens_a_pair_on_click(open_notebook) -> None:
     from playwright.sync_api import expect
 
     notebook = open_notebook(NOTEBOOK)
-    page = notebook.page
-    page.set_viewport_size({"width": 1500, "height": 2000})
-    notebook.close_left_sidebar()
-    notebook.run_all_cells()
-    explorer = page.locator(".jp-OutputArea-output .rankfold-explorer").first
-    explorer.locator(".rankfold-heatmap .mark-rect path").first.wait_for()
+    explorer = notebook.run_whole_explorer_in_view()
     explorer.locator(".rankfold-sections .lm-TabBar-tab",
                      has_text=re.compile(r"^All pairs$")).click()
 

@@ -29,12 +29,7 @@ def test_within_levels_tab_draws_every_clinic_and_pickers_return_to_none(open_no
     from playwright.sync_api import expect
 
     notebook = open_notebook(NOTEBOOK)
-    page = notebook.page
-    page.set_viewport_size({"width": 1500, "height": 2000})
-    notebook.close_left_sidebar()
-    notebook.run_all_cells()
-    explorer = page.locator(".jp-OutputArea-output .rankfold-explorer").first
-    explorer.locator(".rankfold-heatmap .mark-rect path").first.wait_for()
+    explorer = notebook.run_whole_explorer_in_view()
 
     explorer.locator(".rankfold-sections .lm-TabBar-tab",
                      has_text=re.compile(r"^Within each level$")).click()
