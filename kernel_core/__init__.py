@@ -29,7 +29,7 @@ from .independence import PermutationResult, independence_label
 from .measure_comparison import compare_measures
 from .measure_table import measure_label
 from .ordinal_table import OrdinalTable
-from .overview import overview
+from .overview import fill_coding_ranges, overview
 from .pair_regions import PairRegions, pair_regions
 from .steps import ExcludeStep, MergeStep, OrderStep, apply_steps
 
@@ -51,6 +51,7 @@ __all__ = [
     "count_codings",
     "demo",
     "explore",
+    "fill_coding_ranges",
     "independence_label",
     "measure_label",
     "overview",

@@ -30,7 +30,7 @@ from .ordinal_measures import ORDINAL_MEASURES, Sampling, ordinal_measure_arrays
 from .ordinal_table import OrdinalTable
 from .steps import label_list
 
-__all__ = ["ADJUSTMENTS", "adjust_p_values", "coding_range", "overview"]
+__all__ = ["ADJUSTMENTS", "adjust_p_values", "coding_range", "fill_coding_ranges", "overview"]
 
 #: Multiple-comparison adjustments :func:`overview` offers (None: none).
 ADJUSTMENTS = ("holm", "bh")
@@ -227,6 +227,47 @@ def _count_pairs(
     return out
 
 
+@dataclass(frozen=True)
+class _Counted:
+    """Every eligible column coded and every pair counted, with what was skipped and why."""
+
+    cols: list[_Column]
+    skipped: dict[str, str]
+    batches: list[_PairCells]
+    control_labels: tuple
+    weights: np.ndarray | None
+    whole: bool
+
+
+def _counted_pairs(df: pd.DataFrame, names: Sequence[str],
+                   order: Mapping[str, Sequence[Hashable]], control: str | None,
+                   weight: str | None, weight_kind: str) -> _Counted:
+    """Code each column once and count every pair from the codes (arguments checked)."""
+    cols, skipped = _code_all(df, names, order)
+    if len(cols) < 2:
+        reasons = "; ".join(f"{k}: {v}" for k, v in skipped.items()) or "no columns given"
+        raise ValueError(
+            f"overview needs at least two eligible columns; found {len(cols)}. {reasons}"
+        )
+    level, n_levels, control_labels = None, 1, (None,)
+    if control is not None:
+        coded = code_column(df[control], control, "control", order.get(control), None, True,
+                            nominal=True)
+        if not coded.labels:
+            raise ValueError(
+                f"The control variable {control!r} has no category left to hold fixed: every "
+                "value is missing. Leave out control=."
+            )
+        n_levels, control_labels = len(coded.labels), coded.labels
+        level = np.where(coded.codes >= 0, coded.codes, n_levels).astype(np.intp)
+    weights, whole = None, False
+    if weight is not None:
+        weights = _weights(df, weight)
+        whole = weight_kind == "frequency" and bool(np.all(np.mod(weights, 1) == 0))
+    batches = _count_pairs(cols, level, n_levels, weights, weight_kind == "sampling", whole)
+    return _Counted(cols, skipped, batches, control_labels, weights, whole)
+
+
 def _inner(parts: list[np.ndarray], shape: tuple[int, ...], kept: tuple[slice, ...],
            kind: type) -> np.ndarray:
     """Stacked counts without the slots of missing values (the last level, row and column)."""
@@ -385,7 +426,8 @@ def overview(
         Cochran's rule (:func:`coding_range`, one :func:`rankfold.sweep` per pair; the slow
         part, seconds for dozens of pairs).
     progress : callable, optional
-        ``progress(done, total)`` after each pair's coding range.
+        ``progress(done, total)`` after each pair's coding range; returning ``False`` stops
+        the filling (see :func:`fill_coding_ranges`, which does the same later).
 
     Returns
     -------
@@ -403,8 +445,8 @@ def overview(
         ``coding_ranges=True``) and ``note`` (why a value is undefined; sampling weights).
         ``frame.attrs`` holds ``"skipped"`` (``{column: reason}`` for every column left out),
         ``"columns"`` (the eligible columns, in order), ``"non_substantive"``
-        (``{column: flagged labels}``), ``"measure"``, ``"adjust"``, ``"control"`` and
-        ``"weight"``.
+        (``{column: flagged labels}``), ``"measure"``, ``"adjust"``, ``"control"``,
+        ``"weight"``, ``"weight_kind"`` and ``"order"``.
 
     Raises
     ------
@@ -443,28 +485,9 @@ def overview(
     if not isinstance(coding_ranges, bool):
         raise ValueError(f"coding_ranges must be True or False; got {coding_ranges!r}.")
     adjust_p_values([], adjust)  # checks the name before any work
-    cols, skipped = _code_all(df, names, order)
-    if len(cols) < 2:
-        reasons = "; ".join(f"{k}: {v}" for k, v in skipped.items()) or "no columns given"
-        raise ValueError(
-            f"overview needs at least two eligible columns; found {len(cols)}. {reasons}"
-        )
-    level, n_levels, control_labels = None, 1, (None,)
-    if control is not None:
-        coded = code_column(df[control], control, "control", order.get(control), None, True,
-                            nominal=True)
-        if not coded.labels:
-            raise ValueError(
-                f"The control variable {control!r} has no category left to hold fixed: every "
-                "value is missing. Leave out control=."
-            )
-        n_levels, control_labels = len(coded.labels), coded.labels
-        level = np.where(coded.codes >= 0, coded.codes, n_levels).astype(np.intp)
-    weights, whole = None, False
-    if weight is not None:
-        weights = _weights(df, weight)
-        whole = weight_kind == "frequency" and bool(np.all(np.mod(weights, 1) == 0))
-    batches = _count_pairs(cols, level, n_levels, weights, weight_kind == "sampling", whole)
+    counted = _counted_pairs(df, names, order, control, weight, weight_kind)
+    cols, skipped, batches = counted.cols, counted.skipped, counted.batches
+    weights, whole = counted.weights, counted.whole
     parts = []
     for batch in batches:
         found = _measure_batch(batch, measure, control is not None)
@@ -516,29 +539,76 @@ def overview(
         "coding_significance_changes": pd.array([pd.NA] * len(where), dtype="boolean"),
         "note": inference["note"].to_numpy(),
     })
-    if coding_ranges:
-        _fill_ranges(frame, batches, cols, control, control_labels, weight, weight_kind,
-                     measure, progress)
     frame.attrs.update({
         "skipped": skipped, "columns": [c.name for c in cols],
         "non_substantive": {k: list(v) for k, v in flagged.items() if v},
         "measure": key, "adjust": adjust, "control": control, "weight": weight,
+        "weight_kind": weight_kind, "order": order,
     })
+    if coding_ranges:
+        _fill_ranges(frame, counted, progress)
     return frame
 
 
-def _fill_ranges(frame: pd.DataFrame, batches: list[_PairCells], cols: list[_Column],
-                 control: str | None, control_labels: tuple, weight: str | None,
-                 weight_kind: str, measure: str,
-                 progress: Callable[[int, int], None] | None) -> None:
+def fill_coding_ranges(frame: pd.DataFrame, df: pd.DataFrame,
+                       progress: Callable[[int, int], object] | None = None) -> None:
+    """Fill in the coding-range columns of an overview, pair by pair, in place.
+
+    The work of ``overview(..., coding_ranges=True)`` done later, for instance in a background
+    thread while the rest of the overview is already on screen.
+
+    Parameters
+    ----------
+    frame : pandas.DataFrame
+        A result of :func:`overview` (its ``attrs`` say which columns, control variable,
+        weight and orders it used). Its ``coding_min``, ``coding_max``,
+        ``coding_sign_changes``, ``coding_significance_changes`` and ``note`` are written.
+    df : pandas.DataFrame
+        The records the overview was made from (never modified); columns are coded and pairs
+        counted again from them, once.
+    progress : callable, optional
+        ``progress(done, total)`` after each pair; when it returns ``False`` the filling stops
+        there and the pairs not reached keep NaN.
+
+    Notes
+    -----
+    Each pair's range is :func:`coding_range` of its table (one :func:`rankfold.sweep` per
+    pair). The ranges show how much the coding choice can move a pair's measure; picking,
+    after looking, the coding that suits is the post-hoc choice that inflates false findings.
+
+    References
+    ----------
+    Cochran, W. G. (1954). Biometrics 10, 417-451 (the rule the codings must meet).
+    """
+    needed = {"columns", "control", "weight", "weight_kind", "order", "measure"}
+    if not isinstance(frame, pd.DataFrame) or not needed <= set(frame.attrs):
+        raise ValueError(
+            "fill_coding_ranges needs a frame made by rankfold.overview (its attrs name the "
+            "columns and settings); call rankfold.overview(df) first."
+        )
+    if not isinstance(df, pd.DataFrame):
+        raise ValueError(f"fill_coding_ranges needs the records as a pandas DataFrame; got "
+                         f"{type(df).__name__}.")
+    attrs = frame.attrs
+    counted = _counted_pairs(df, attrs["columns"], attrs["order"], attrs["control"],
+                             attrs["weight"], attrs["weight_kind"])
+    _fill_ranges(frame, counted, progress)
+
+
+def _fill_ranges(frame: pd.DataFrame, counted: _Counted,
+                 progress: Callable[[int, int], object] | None) -> None:
+    attrs, cols = frame.attrs, counted.cols
     position = {(a, b): i for i, (a, b) in enumerate(
         zip(frame["var_a"], frame["var_b"], strict=True))}
     total, done = len(frame), 0
-    for batch in batches:
+    for batch in counted.batches:
         for k, (a, b) in enumerate(batch.pairs):
-            table = _pair_table(batch, k, cols, control, control_labels, weight, weight_kind)
-            found = coding_range(table, measure)
-            row = position[(cols[a].name, cols[b].name)]
+            row = position.get((cols[a].name, cols[b].name))
+            if row is None:  # a pair the frame does not hold
+                continue
+            table = _pair_table(batch, k, cols, attrs["control"], counted.control_labels,
+                                attrs["weight"], attrs["weight_kind"])
+            found = coding_range(table, attrs["measure"])
             frame.loc[row, ["coding_min", "coding_max"]] = (found["low"], found["high"])
             if found["codings"] and not np.isnan(found["low"]):
                 frame.loc[row, "coding_sign_changes"] = found["sign_changes"]
@@ -548,5 +618,5 @@ def _fill_ranges(frame: pd.DataFrame, batches: list[_PairCells], cols: list[_Col
                 frame.at[row, "note"] = f"{note}; coding range: {found['note']}" if note else (
                     f"coding range: {found['note']}")
             done += 1
-            if progress is not None:
-                progress(done, total)
+            if progress is not None and progress(done, total) is False:
+                return

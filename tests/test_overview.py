@@ -9,6 +9,7 @@ import pytest
 from statsmodels.stats.multitest import multipletests
 
 import rankfold
+from rankfold import fill_coding_ranges
 from rankfold.collapsing import rule_met
 from rankfold.overview import adjust_p_values
 
@@ -131,11 +132,14 @@ def test_overview_adjusts_its_p_values(survey, adjust, reference):
     np.testing.assert_array_equal(plain["p_adjusted"], plain["p_value"])
 
 
+@pytest.mark.parametrize("later", [False, True], ids=["at-once", "filled-later"])
 @pytest.mark.parametrize("options", [{}, {"control": "region"},
                                      {"weight": "w", "weight_kind": "sampling"}])
-def test_coding_range_equals_sweep_restricted_to_rule(survey, options):
+def test_coding_range_equals_sweep_restricted_to_rule(survey, options, later):
     columns = ["item0", "item3", "rating"]
-    frame = rankfold.overview(survey, columns, order=ORDER, coding_ranges=True, **options)
+    frame = rankfold.overview(survey, columns, order=ORDER, coding_ranges=not later, **options)
+    if later:
+        fill_coding_ranges(frame, survey)
     key = "partial_gamma" if "control" in options else "gamma"
     for row in frame.itertuples():
         order = {k: v for k, v in ORDER.items() if k in (row.var_a, row.var_b)}
@@ -209,3 +213,21 @@ def test_progress_reports_every_pair_of_the_ranges(survey):
     rankfold.overview(survey, ITEMS[:3], coding_ranges=True,
                       progress=lambda done, total: calls.append((done, total)))
     assert calls == [(1, 3), (2, 3), (3, 3)]
+
+
+def test_progress_returning_false_stops_the_filling(survey):
+    frame = rankfold.overview(survey, ITEMS[:3])
+    fill_coding_ranges(frame, survey, progress=lambda done, total: done < 2)
+    assert frame["coding_min"].notna().sum() == 2  # the third pair was not reached
+    assert frame["coding_sign_changes"].isna().sum() == 1
+
+
+@pytest.mark.parametrize("frame, words", [
+    (pd.DataFrame({"var_a": ["a"], "var_b": ["b"]}), "made by rankfold.overview"),
+    (None, "made by rankfold.overview"),
+])
+def test_filling_needs_an_overview(survey, frame, words):
+    with pytest.raises(ValueError, match=words):
+        fill_coding_ranges(frame, survey)
+    with pytest.raises(ValueError, match="pandas DataFrame"):
+        fill_coding_ranges(rankfold.overview(survey, ITEMS[:2]), survey.to_numpy())

@@ -3,12 +3,17 @@ filled in the background."""
 
 from __future__ import annotations
 
+import importlib
+
 import pytest
 
 import rankfold
 from rankfold.widgets import explorer as explorer_module
 from rankfold.widgets import overview_view
 from rankfold.widgets.charts import PAIR_CLICK
+
+# The module, which the name rankfold.overview (the function) hides.
+overview_module = importlib.import_module("rankfold.overview")
 
 
 @pytest.fixture()
@@ -57,13 +62,13 @@ def test_coding_ranges_fill_in_and_equal_the_overviews_own(df, opened):
 
 def test_cancel_stops_filling_in(df, opened, monkeypatch):
     _, section = opened
-    real = overview_view.coding_range
+    real = overview_module.coding_range
 
     def one_then_cancel(table, measure="gamma"):
         section._cancel.set()  # as if the cancel button were pressed during the first pair
         return real(table, measure)
 
-    monkeypatch.setattr(overview_view, "coding_range", one_then_cancel)
+    monkeypatch.setattr(overview_module, "coding_range", one_then_cancel)
     section.fill_ranges(wait=True)
     assert section.frame["coding_min"].notna().sum() == 1
     assert section._fill.layout.display is None  # the button is offered again

@@ -18,7 +18,7 @@ import ipywidgets as widgets
 import pandas as pd
 
 import rankfold
-from rankfold.overview import coding_range
+from rankfold.overview import fill_coding_ranges
 
 from . import formatting
 from .chart_pane import ChartPane
@@ -166,28 +166,21 @@ class AllPairsSection:
             self._worker.join()
 
     def _ranges(self) -> None:
-        frame, state = self.frame, self._rendered.state
-        data = self._rendered.source.data
-        order = dict(state.order)
-        last = time.monotonic()
+        frame, last, stopped = self.frame, time.monotonic(), True
+
+        def step(done: int, total: int) -> bool:
+            nonlocal last, stopped
+            if self._cancel.is_set() or frame is not self.frame:
+                return False
+            stopped = done < total
+            self._bar.value = done
+            if time.monotonic() - last > REDRAW_EVERY:
+                self._draw()
+                last = time.monotonic()
+            return True
+
         try:
-            for k, row in enumerate(frame.itertuples()):
-                if self._cancel.is_set() or frame is not self.frame:
-                    break
-                table = rankfold.table(
-                    data, row.var_a, row.var_b, control=state.control, weight=state.weight,
-                    weight_kind=state.weight_kind,
-                    order={c: v for c, v in order.items() if c in (row.var_a, row.var_b)})
-                found = coding_range(table, frame.attrs.get("measure", "gamma"))
-                frame.loc[row.Index, ["coding_min", "coding_max"]] = (found["low"],
-                                                                      found["high"])
-                frame.loc[row.Index, "coding_sign_changes"] = found["sign_changes"]
-                frame.loc[row.Index, "coding_significance_changes"] = (
-                    found["significance_changes"])
-                self._bar.value = k + 1
-                if time.monotonic() - last > REDRAW_EVERY:
-                    self._draw()
-                    last = time.monotonic()
+            fill_coding_ranges(frame, self._rendered.source.data, progress=step)
             if frame is self.frame:
                 self._draw()
         except Exception as err:  # never a traceback from a background thread
@@ -195,5 +188,6 @@ class AllPairsSection:
         finally:
             self._bar.layout.visibility = "hidden"
             self._stop.layout.display = "none"
-            done = frame["coding_min"].notna().all() or frame is not self.frame
-            self._fill.layout.display = "none" if done else None
+            # offered again after a cancel or a failure (a pair with no admissible coding
+            # keeps NaN and is done all the same)
+            self._fill.layout.display = "none" if not stopped or frame is not self.frame else None
