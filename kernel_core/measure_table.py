@@ -2,13 +2,14 @@
 
 from __future__ import annotations
 
+import functools
 from collections.abc import Sequence
 
 import numpy as np
 import pandas as pd
 
 from .ordinal_measures import ORDINAL_MEASURES, Sampling, delta_variance, ordinal_measure_arrays
-from .polychoric import polychoric
+from .polychoric import polychoric_arrays
 from .scipy_special import special
 from .two_by_two import two_by_two_measures
 
@@ -18,6 +19,7 @@ __all__ = [
     "inference_frame",
     "interval_quantile",
     "measures_frame",
+    "measures_frames",
     "measure_label",
     "normal_p_value",
     "sampling_note",
@@ -169,68 +171,149 @@ def measures_frame(
     pandas.DataFrame
         Indexed by measure key with columns :data:`COLUMNS`.
     """
+    if sampling is not None and sampling.squared is not None:
+        sampling = Sampling(np.asarray(sampling.squared, dtype=float)[None],
+                            np.asarray(sampling.records, dtype=float)[None])
+    return measures_frames(np.asarray(counts, dtype=float)[None], sampling=sampling,
+                           confidence=confidence, extra_note=extra_note,
+                           arrays=None if arrays is None else _batched(arrays))
+
+
+def _batched(arrays: dict) -> dict:
+    """One table's measure arrays with a batch axis of length 1 in front."""
+    return {key: {f: np.asarray(v)[None] for f, v in found.items()}
+            for key, found in arrays.items()}
+
+
+def measures_frames(
+    cells: np.ndarray,
+    *,
+    sampling: Sampling | None = None,
+    confidence: float = 0.95,
+    extra_note: str = "",
+    arrays: dict | None = None,
+    levels: pd.Index | None = None,
+) -> pd.DataFrame:
+    """The measures of K tables of one shape as one DataFrame, computed batched.
+
+    Parameters
+    ----------
+    cells : ndarray, shape (K, I, J)
+        Cell counts or sums of weights of K tables (the levels of a control variable).
+    sampling : Sampling, optional
+        Survey-weight information per table: ``squared`` of shape (K, I, J) and ``records``
+        of shape (K,); each table is a sample of its own.
+    confidence : float
+        Confidence level of the intervals, strictly between 0 and 1.
+    extra_note : str
+        A remark added to every row's note.
+    arrays : dict, optional
+        The result of :func:`ordinal_measure_arrays` on ``cells`` when already computed.
+    levels : pandas.Index, optional
+        The K tables' labels, named; required when K > 1.
+
+    Returns
+    -------
+    pandas.DataFrame
+        Columns :data:`COLUMNS`; indexed by measure key when ``levels`` is None (K = 1),
+        else by ``(level, measure)``. Each table's rows are those of :func:`measures_frame`
+        on it alone: the ordinal measures and their errors come from one call of
+        :func:`ordinal_measure_arrays` and the polychoric correlations from one call of
+        :func:`rankfold.polychoric.polychoric_arrays` over all K tables.
+    """
     crit = interval_quantile(confidence)
     sampling = sampling or Sampling()
-    counts = np.asarray(counts, dtype=float)
-    reasons = _undefined_reasons(counts)
-    arrays = ordinal_measure_arrays(counts, sampling) if arrays is None else arrays
+    cells = np.asarray(cells, dtype=float)
+    arrays = ordinal_measure_arrays(cells, sampling) if arrays is None else arrays
+    reasons = [_undefined_reasons(level) for level in cells]
+    fit = [k for k, why in enumerate(reasons) if not why["cramers_v"]]
+    latent = None
+    if fit:
+        # started at sin(pi tau_b / 2) (Greiner's relation), from the tau-b just computed
+        tau_b = np.nan_to_num(np.clip(arrays["tau_b"]["estimate"][fit], -1, 1))
+        latent = polychoric_arrays(cells[fit], _pick(sampling, fit),
+                                   start=np.sin(np.pi / 2 * tau_b))
+    records = []
+    for k, level in enumerate(cells):
+        part = _pick(sampling, [k])
+        part = Sampling(None if part.squared is None else part.squared[0],
+                        None if part.records is None else part.records[0])
+        found = None if latent is None or k not in fit else {
+            f: latent[f][fit.index(k)] for f in ("estimate", "std_error", "std_error_null",
+                                                  "reason")}
+        records += _rows(level, part, {key: {f: v[k] for f, v in entry.items()}
+                                       for key, entry in arrays.items()},
+                         reasons[k], found, extra_note)
+    keys, est, se, se0, notes, bounds, log_scale, on_bound, p_values = zip(*records, strict=True)
+    index = None
+    if levels is not None:
+        per_level = len(records) // len(levels)
+        names = list(keys[:per_level])
+        index = pd.MultiIndex(
+            levels=[levels, pd.Index(names, dtype=object)],
+            codes=[np.repeat(np.arange(len(levels)), per_level),
+                   np.tile(np.arange(per_level), len(levels))],
+            names=[levels.name, "measure"], verify_integrity=False,
+        )
+    return inference_frame(keys, est, se, se0, notes, crit=crit, bounds=bounds,
+                           log_scale=log_scale, p_values=p_values, on_bound=on_bound,
+                           index=index)
+
+
+def _pick(sampling: Sampling, chosen: list[int]) -> Sampling:
+    """The survey-weight information of some tables of a batch."""
+    if sampling.squared is None:
+        return sampling
+    return Sampling(np.asarray(sampling.squared)[chosen],
+                    np.broadcast_to(np.asarray(sampling.records, float),
+                                    np.shape(sampling.squared)[:-2])[chosen])
+
+
+def _rows(counts: np.ndarray, sampling: Sampling, arrays: dict, reasons: dict,
+          latent: dict | None, extra_note: str) -> list[tuple]:
+    """One table's rows: (key, estimate, se, se0, note, bounds, log scale, on bound, p)."""
     records = []
     for key in ORDINAL_MEASURES:
-        est, se, se0 = (float(arrays[key][f]) for f in ("estimate", "std_error", "std_error_null"))
+        found = arrays[key]
+        est, se, se0 = (float(found[f]) for f in ("estimate", "std_error", "std_error_null"))
         note = reasons[key]
         if note:
             est = se = se0 = np.nan
         records.append((key, est, se, se0, note, (-1.0, 1.0), False,
-                        bool(arrays[key]["on_bound"]) and not note))
-    if reasons["cramers_v"]:  # the table itself leaves nothing to estimate
+                        bool(found["on_bound"]) and not note, None))
+    if latent is None:  # the table itself leaves nothing to estimate
         records.append(("polychoric", np.nan, np.nan, np.nan, reasons["cramers_v"], (-1.0, 1.0),
-                        False, False))
+                        False, False, None))
     else:
-        latent = polychoric(counts, sampling)
-        records.append(("polychoric", latent.estimate, latent.std_error, latent.std_error_null,
-                        latent.note, (-1.0, 1.0), False, False))
+        note = str(latent["reason"])
+        est, se, se0 = (np.nan,) * 3 if note else (
+            float(latent[f]) for f in ("estimate", "std_error", "std_error_null"))
+        records.append(("polychoric", est, se, se0, note, (-1.0, 1.0), False, False, None))
     v_note = reasons["cramers_v"]
-    chi_square_p = np.nan  # Pearson's test, reported on the Cramér's V row
     if v_note:
-        records.append(("cramers_v", np.nan, np.nan, np.nan, v_note, (0.0, 1.0), False, False))
+        records.append(("cramers_v", np.nan, np.nan, np.nan, v_note, (0.0, 1.0), False, False,
+                        np.nan))
     else:
         v = _cramers_v(counts, sampling)
-        chi_square_p = v["p_value"]
         v_note = "nominal measure; p-value from Pearson's X² test"
         if sampling.squared is not None:
             v_note = "nominal measure; no p-value with sampling weights"
         if not v["estimate"] > 0:
             v_note += "; V = 0 is on the boundary: no delta-method interval"
-        records.append(
-            ("cramers_v", v["estimate"], v["std_error"], np.nan, v_note, (0.0, 1.0), False, False)
-        )
+        # Pearson's test, reported on the Cramér's V row
+        records.append(("cramers_v", v["estimate"], v["std_error"], np.nan, v_note, (0.0, 1.0),
+                        False, False, v["p_value"]))
     if counts.shape == (2, 2) and counts.sum() > 0:
         for key, m in two_by_two_measures(counts, sampling).items():
             bounds = (-1.0, 1.0) if not m["log_scale"] else (0.0, np.inf)
-            records.append(
-                (
-                    key,
-                    m["estimate"],
-                    m["std_error"],
-                    m["std_error_null"],
-                    m["note"],
-                    bounds,
-                    m["log_scale"],
-                    m["on_bound"],
-                )
-            )
-
+            records.append((key, m["estimate"], m["std_error"], m["std_error_null"], m["note"],
+                            bounds, m["log_scale"], m["on_bound"], None))
     extras = [extra_note] if extra_note else []
     if sampling.squared is not None:
         extras.insert(0, sampling_note(counts.sum(), sampling.squared.sum()))
     for extra in extras:
         records = [(*r[:4], f"{r[4]}; {extra}" if r[4] else extra, *r[5:]) for r in records]
-    keys, est, se, se0, notes, bounds, log_scale, on_bound = zip(*records, strict=True)
-    p_values = [chi_square_p if key == "cramers_v" else None for key in keys]
-    return inference_frame(
-        keys, est, se, se0, notes, crit=crit, bounds=bounds, log_scale=log_scale,
-        p_values=p_values, on_bound=on_bound,
-    )
+    return records
 
 
 def interval_quantile(confidence: object) -> float:
@@ -290,6 +373,7 @@ def inference_frame(
     log_scale: Sequence[bool] | None = None,
     p_values: Sequence[float | None] | None = None,
     on_bound: Sequence[bool] | None = None,
+    index: pd.Index | None = None,
 ) -> pd.DataFrame:
     """Measures table: Wald interval, z statistic, p-value and notes for each estimate.
 
@@ -316,6 +400,9 @@ def inference_frame(
         Where True the estimate sits on an end of its range (decided by the caller from the
         data, e.g. no discordant pair for gamma, never from a floating standard error): the
         delta method gives no interval there, so the interval is NaN and the note says so.
+    index : pandas.Index, optional
+        The frame's index (e.g. levels and measure keys); by default ``keys``, named
+        ``measure``.
 
     Returns
     -------
@@ -348,9 +435,8 @@ def inference_frame(
         z = np.where(se0 > 0, centre / np.where(se0 > 0, se0, 1.0), np.nan)
     p = normal_p_value(z)
     if p_values is not None:
-        p = np.array(
-            [normal if other is None else other for normal, other in zip(p, p_values, strict=True)]
-        )
+        other = np.array([np.nan if v is None else v for v in p_values], dtype=float)
+        p = np.where([v is None for v in p_values], p, other)
     full_notes = []
     for key, note, e, s0, at_bound in zip(
         keys, notes, est.tolist(), se0.tolist(), bound.tolist(), strict=True
@@ -362,17 +448,46 @@ def inference_frame(
         if defined and key != "cramers_v" and not s0 > 0:
             parts.append("no variation under independence: no z test")
         full_notes.append("; ".join(parts))
-    columns = {
-        "estimate": est,
-        "std_error": se,
-        "ci_low": ci_low,
-        "ci_high": ci_high,
-        "std_error_null": se0,
-        "z": z,
-        "p_value": p,
-        "note": np.array(full_notes, dtype=object),
-    }
-    # an object index and copy=False keep pandas from inspecting every value again
-    return pd.DataFrame(
-        columns, index=pd.Index(list(keys), name="measure", dtype=object), copy=False
-    )
+    if index is None:  # a copy: a frame's index name can be set in place
+        index = _measure_index(tuple(keys)).copy()
+    return _frame([est, se, ci_low, ci_high, se0, z, p, _notes(full_notes)], index)
+
+
+@functools.lru_cache(maxsize=64)
+def _measure_index(keys: tuple) -> pd.Index:
+    """The index of a measures table, made once per set of keys (frames get copies)."""
+    return pd.Index(list(keys), name="measure", dtype=object)
+
+
+@functools.cache
+def _note_dtype() -> object:
+    """The dtype pandas gives a column of text (``str`` in pandas 3, object before)."""
+    return pd.DataFrame({"note": np.array([""], dtype=object)}).dtypes["note"]
+
+
+def _notes(notes: list[str]) -> object:
+    """The note column as the array pandas would make of it (see :func:`_note_dtype`)."""
+    values = np.array(notes, dtype=object)
+    dtype = _note_dtype()
+    if dtype == object:
+        return values
+    return dtype.construct_array_type()._from_sequence(values, dtype=dtype)
+
+
+_COLUMN_INDEX = pd.Index(COLUMNS)
+
+
+def _frame(columns: list, index: pd.Index) -> pd.DataFrame:
+    """The measures DataFrame from its columns (in :data:`COLUMNS` order), built directly.
+
+    ``DataFrame._from_arrays`` skips the checks and copies of the public constructor, which
+    cost most of the time of a small table's measures; the public constructor gives the same
+    frame where that method is missing.
+    """
+    build = getattr(pd.DataFrame, "_from_arrays", None)
+    if build is not None:
+        try:
+            return build(columns, _COLUMN_INDEX.copy(), index, verify_integrity=False)
+        except TypeError:  # another signature in some pandas version
+            pass
+    return pd.DataFrame(dict(zip(COLUMNS, columns, strict=True)), index=index, copy=False)
