@@ -92,54 +92,63 @@ def normal_p_value(z: np.ndarray | float) -> np.ndarray:
 
 def _undefined_reasons(counts: np.ndarray) -> dict[str, str]:
     """Plain-language reason each measure is undefined for this table ('' if defined)."""
+    return dict.fromkeys((*ORDINAL_MEASURES, "cramers_v"), _undefined_reason(counts))
+
+
+def _undefined_reason(counts: np.ndarray) -> str:
+    """Why no measure is defined for this table, '' when they are."""
     rows = counts.sum(axis=1)
     cols = counts.sum(axis=0)
-    busy_rows = int((rows > 0).sum())
-    busy_cols = int((cols > 0).sum())
-    if counts.sum() <= 0:
-        return dict.fromkeys((*ORDINAL_MEASURES, "cramers_v"), "the table is empty")
-    one_row = "" if busy_rows > 1 else "all units fall in one row category"
-    one_col = "" if busy_cols > 1 else "all units fall in one column category"
+    if rows.sum() <= 0:
+        return "the table is empty"
+    one_row = "" if (rows > 0).sum() > 1 else "all units fall in one row category"
+    one_col = "" if (cols > 0).sum() > 1 else "all units fall in one column category"
     # With one category on either variable P - Q is 0 by construction, not by data. With two
     # or more on each, some pair of units is untied on both, so gamma is defined too.
-    return dict.fromkeys((*ORDINAL_MEASURES, "cramers_v"), one_row or one_col)
+    return one_row or one_col
 
 
-def _cramers_v(counts: np.ndarray, sampling: Sampling) -> dict[str, float]:
-    """Cramér's V over the non-empty rows and columns, with a delta-method SE.
+def _cramers_v_arrays(n: np.ndarray, sampling: Sampling) -> dict[str, np.ndarray]:
+    """Cramér's V of a batch (B, I, J) of tables without empty rows or columns.
 
     ``phi^2 = sum n_ij^2 / (n_i+ n_+j) - 1`` and ``V = sqrt(phi^2 / (m - 1))`` (Cramér 1946,
     sec. 21.9); the gradient of ``phi^2`` is
     ``2 n_kl/(n_k+ n_+l) - sum_j n_kj^2/(n_k+^2 n_+j) - sum_i n_il^2/(n_i+ n_+l^2)``
     (Bishop, Fienberg & Holland 1975, sec. 11.3).
     """
-    keep_r = counts.sum(axis=1) > 0
-    keep_c = counts.sum(axis=0) > 0
-    full = keep_r.all() and keep_c.all()
-    n = counts if full else counts[np.ix_(keep_r, keep_c)]
-    rows = n.sum(axis=1)[:, None]
-    cols = n.sum(axis=0)[None, :]
-    m = min(n.shape)
-    phi2 = (n**2 / (rows * cols)).sum() - 1
-    v = np.sqrt(max(phi2, 0.0) / (m - 1))
-    grad_phi2 = (
-        2 * n / (rows * cols)
-        - (n**2 / (rows**2 * cols)).sum(axis=1, keepdims=True)
-        - (n**2 / (rows * cols**2)).sum(axis=0, keepdims=True)
-    )
-    sq = sampling.squared
-    if sq is not None and not full:
-        sq = sq[np.ix_(keep_r, keep_c)]
-    var_phi2 = delta_variance(n, grad_phi2, Sampling(sq, sampling.records))
-    se = np.sqrt(var_phi2) / (2 * v * (m - 1)) if v > 0 else np.nan
-    gradient = np.zeros(counts.shape)
+    rows = n.sum(axis=-1)[..., :, None]
+    cols = n.sum(axis=-2)[..., None, :]
+    m = min(n.shape[-2:])
+    outer = rows * cols
+    share = n**2 / outer
+    phi2 = np.maximum(share.sum(axis=(-2, -1)) - 1, 0.0)
+    v = np.sqrt(phi2 / (m - 1))
+    grad_phi2 = (2 * n / outer - (share / rows).sum(axis=-1, keepdims=True)
+                 - (share / cols).sum(axis=-2, keepdims=True))
+    var_phi2 = delta_variance(n, grad_phi2, sampling)
     with np.errstate(divide="ignore", invalid="ignore"):
-        gradient[np.ix_(keep_r, keep_c)] = grad_phi2 / (2 * v * (m - 1))
+        scale = np.where(v > 0, 1 / (2 * v * (m - 1)), np.nan)
+        gradient = grad_phi2 * scale[..., None, None]
     # Pearson's X^2 = n phi^2 on (I' - 1)(J' - 1) df (Cramer 1946, sec. 21.9); weighted
     # totals under sampling weights are not counts, so no p-value then.
-    df = (n.shape[0] - 1) * (n.shape[1] - 1)
-    p = special.chdtrc(df, n.sum() * max(phi2, 0.0)) if sampling.squared is None else np.nan
-    return {"estimate": v, "std_error": float(se), "p_value": float(p), "gradient": gradient}
+    df = (n.shape[-2] - 1) * (n.shape[-1] - 1)
+    p = (special.chdtrc(df, n.sum(axis=(-2, -1)) * phi2) if sampling.squared is None
+         else np.full(v.shape, np.nan))
+    return {"estimate": v, "std_error": np.sqrt(var_phi2) * scale, "p_value": p,
+            "gradient": gradient}
+
+
+def _cramers_v(counts: np.ndarray, sampling: Sampling) -> dict[str, float]:
+    """Cramér's V over the non-empty rows and columns, with a delta-method SE (one table;
+    see :func:`_cramers_v_arrays`); the gradient is 0 in empty categories."""
+    keep = np.ix_(counts.sum(axis=1) > 0, counts.sum(axis=0) > 0)
+    sq = sampling.squared
+    found = _cramers_v_arrays(
+        counts[keep][None], Sampling(None if sq is None else sq[keep][None], sampling.records))
+    gradient = np.zeros(counts.shape)
+    gradient[keep] = found["gradient"][0]
+    return {"estimate": float(found["estimate"][0]), "std_error": float(found["std_error"][0]),
+            "p_value": float(found["p_value"][0]), "gradient": gradient}
 
 
 def measures_frame(
@@ -227,6 +236,14 @@ def measures_frames(
     arrays = ordinal_measure_arrays(cells, sampling) if arrays is None else arrays
     reasons = [_undefined_reasons(level) for level in cells]
     fit = [k for k, why in enumerate(reasons) if not why["cramers_v"]]
+    # Cramér's V batched over the tables without empty categories, alone for the others
+    full = (cells.sum(axis=-1) > 0).all(axis=-1) & (cells.sum(axis=-2) > 0).all(axis=-1)
+    batch = [k for k in fit if full[k]]
+    nominal = {}
+    if batch:
+        found = _cramers_v_arrays(cells[batch], _pick(sampling, batch))
+        nominal = {k: {f: float(found[f][i]) for f in ("estimate", "std_error", "p_value")}
+                   for i, k in enumerate(batch)}
     latent = None
     if fit:
         # started at sin(pi tau_b / 2) (Greiner's relation), from the tau-b just computed
@@ -243,7 +260,7 @@ def measures_frames(
                                                   "reason")}
         records += _rows(level, part, {key: {f: v[k] for f, v in entry.items()}
                                        for key, entry in arrays.items()},
-                         reasons[k], found, extra_note)
+                         reasons[k], found, nominal.get(k), extra_note)
     keys, est, se, se0, notes, bounds, log_scale, on_bound, p_values = zip(*records, strict=True)
     index = None
     if levels is not None:
@@ -270,7 +287,7 @@ def _pick(sampling: Sampling, chosen: list[int]) -> Sampling:
 
 
 def _rows(counts: np.ndarray, sampling: Sampling, arrays: dict, reasons: dict,
-          latent: dict | None, extra_note: str) -> list[tuple]:
+          latent: dict | None, nominal: dict | None, extra_note: str) -> list[tuple]:
     """One table's rows: (key, estimate, se, se0, note, bounds, log scale, on bound, p)."""
     records = []
     for key in ORDINAL_MEASURES:
@@ -294,7 +311,7 @@ def _rows(counts: np.ndarray, sampling: Sampling, arrays: dict, reasons: dict,
         records.append(("cramers_v", np.nan, np.nan, np.nan, v_note, (0.0, 1.0), False, False,
                         np.nan))
     else:
-        v = _cramers_v(counts, sampling)
+        v = nominal or _cramers_v(counts, sampling)
         v_note = "nominal measure; p-value from Pearson's X² test"
         if sampling.squared is not None:
             v_note = "nominal measure; no p-value with sampling weights"
@@ -448,14 +465,14 @@ def inference_frame(
         if defined and key != "cramers_v" and not s0 > 0:
             parts.append("no variation under independence: no z test")
         full_notes.append("; ".join(parts))
-    if index is None:  # a copy: a frame's index name can be set in place
-        index = _measure_index(tuple(keys)).copy()
+    if index is None:  # a view: a frame's index name can be set in place
+        index = _measure_index(tuple(keys)).view()
     return _frame([est, se, ci_low, ci_high, se0, z, p, _notes(full_notes)], index)
 
 
 @functools.lru_cache(maxsize=64)
 def _measure_index(keys: tuple) -> pd.Index:
-    """The index of a measures table, made once per set of keys (frames get copies)."""
+    """The index of a measures table, made once per set of keys (frames get views)."""
     return pd.Index(list(keys), name="measure", dtype=object)
 
 
@@ -469,7 +486,7 @@ def _notes(notes: list[str]) -> object:
     """The note column as the array pandas would make of it (see :func:`_note_dtype`)."""
     values = np.array(notes, dtype=object)
     dtype = _note_dtype()
-    if dtype == object:
+    if dtype == np.dtype(object):
         return values
     return dtype.construct_array_type()._from_sequence(values, dtype=dtype)
 
@@ -487,7 +504,7 @@ def _frame(columns: list, index: pd.Index) -> pd.DataFrame:
     build = getattr(pd.DataFrame, "_from_arrays", None)
     if build is not None:
         try:
-            return build(columns, _COLUMN_INDEX.copy(), index, verify_integrity=False)
+            return build(columns, _COLUMN_INDEX.view(), index, verify_integrity=False)
         except TypeError:  # another signature in some pandas version
             pass
     return pd.DataFrame(dict(zip(COLUMNS, columns, strict=True)), index=index, copy=False)
