@@ -246,10 +246,7 @@ def measures_frames(
                    for i, k in enumerate(batch)}
     latent = None
     if fit:
-        # started at sin(pi tau_b / 2) (Greiner's relation), from the tau-b just computed
-        tau_b = np.nan_to_num(np.clip(arrays["tau_b"]["estimate"][fit], -1, 1))
-        latent = polychoric_arrays(cells[fit], _pick(sampling, fit),
-                                   start=np.sin(np.pi / 2 * tau_b))
+        latent = polychoric_arrays(cells[fit], _pick(sampling, fit))
     records = []
     for k, level in enumerate(cells):
         part = _pick(sampling, [k])
