@@ -126,6 +126,9 @@ class OrdinalTable:
     collected_from: OrdinalTable | None = field(default=None, repr=False)
     row_map: tuple[int, ...] | None = field(default=None, repr=False)
     col_map: tuple[int, ...] | None = field(default=None, repr=False)
+    # Results computed once per table (it is immutable) and handed out as copies; a new table
+    # (every coding step, replace()) starts with an empty one.
+    _kept: dict = field(default_factory=dict, init=False, repr=False, compare=False)
 
     def __post_init__(self) -> None:
         for name in ("cells", "squared_weights", "records"):
@@ -268,8 +271,17 @@ class OrdinalTable:
         ----------
         Agresti, A. (2010). Analysis of Ordinal Categorical Data, 2nd ed., Wiley, ch. 7.
         """
-        return measures_frame(self._pooled(), sampling=self._sampling(), confidence=confidence,
-                              extra_note=self._non_substantive_note())
+        return self._once(("measures", confidence), lambda: measures_frame(
+            self._pooled(), sampling=self._sampling(), confidence=confidence,
+            extra_note=self._non_substantive_note()))
+
+    def _once(self, key: tuple, compute) -> pd.DataFrame:
+        """``compute()``'s frame, computed on the first call with this key and copied out."""
+        found = self._kept.get(key)
+        if found is None:
+            found = compute()
+            self._kept[key] = found
+        return found.copy()
 
     def tests(self, scores: str | Sequence[Sequence[float]] | None = None) -> pd.DataFrame:
         """Tests of independence: Pearson X², likelihood-ratio G², linear trend M² = (n − 1) r².
@@ -404,7 +416,8 @@ class OrdinalTable:
             as in
             :meth:`measures`, which gives the formulas and sources.
         """
-        return control_measures(self, confidence)
+        return self._once(("control_measures", confidence),
+                          lambda: control_measures(self, confidence))
 
     def partial_measures(
         self, confidence: float = 0.95, control_totals: str = "random"

@@ -180,3 +180,36 @@ def test_polychoric_in_measures_equals_the_fit_alone():
     assert row["estimate"] == pytest.approx(alone.estimate, abs=1e-10)
     assert row["std_error"] == pytest.approx(alone.std_error, rel=1e-9)
     assert row["std_error_null"] == pytest.approx(alone.std_error_null, rel=1e-9)
+
+
+def test_kept_results_are_per_table_and_per_confidence():
+    rng = np.random.default_rng(12)
+    counts = rng.poisson(8, size=(4, 5))
+    table = rankfold.table_from_counts(counts)
+    first = table.measures()
+    # Outside reference: scipy.stats.somersd; a second call gives the same, a copy
+    somers = stats.somersd(counts).statistic
+    again = table.measures()
+    assert again.loc["somers_d_col_given_row", "estimate"] == pytest.approx(somers, abs=1e-12)
+    pd.testing.assert_frame_equal(first, again)
+    assert again is not first
+    # another confidence is another result: a wider interval at 99%
+    wide = table.measures(0.99)
+    assert (wide.loc["gamma", "ci_high"] - wide.loc["gamma", "ci_low"]
+            > first.loc["gamma", "ci_high"] - first.loc["gamma", "ci_low"])
+    # a coding step makes a new table with results of its own
+    merged = table.merge("cols", [[1, 2]])
+    assert merged.measures().loc["somers_d_col_given_row", "estimate"] == pytest.approx(
+        stats.somersd(merged.counts.to_numpy()).statistic, abs=1e-12)
+    assert table.measures().loc["somers_d_col_given_row", "estimate"] == pytest.approx(
+        somers, abs=1e-12)
+
+
+def test_kept_level_measures_are_copies(cells):
+    table = rankfold.table(level_frame(cells), "x", "y", control="site")
+    first = table.control_measures()
+    first.iloc[:, 0] = 7.0
+    again = table.control_measures()
+    label = table.control_labels[0]
+    pd.testing.assert_frame_equal(again.xs(label, level=0),
+                                  table.control_table(label).measures(), rtol=1e-10)
