@@ -102,6 +102,11 @@ def _divide(num: np.ndarray, den: np.ndarray) -> np.ndarray:
     return out
 
 
+def _inverse(den: np.ndarray) -> np.ndarray:
+    """``1 / den``, NaN where ``den`` is 0 (inside ``np.errstate(divide="ignore")``)."""
+    return np.where(den != 0, 1 / den, np.nan)
+
+
 def _expand(x: np.ndarray) -> np.ndarray:
     """Batch-shaped array -> broadcastable against (..., I, J)."""
     return np.asarray(x)[..., None, None]
@@ -154,6 +159,8 @@ def _bound_flags(n, filled, conc, disc):
     """:func:`bound_flags` given the 0/1 table of non-empty cells and its concordance."""
     no_concordant = (filled * conc).sum(axis=(-2, -1)) == 0
     no_discordant = (filled * disc).sum(axis=(-2, -1)) == 0
+    if not (no_concordant | no_discordant).any():  # the usual case: nothing on a bound
+        return {key: np.zeros(no_concordant.shape, dtype=bool) for key in ORDINAL_MEASURES}
     rows_used = (filled.sum(axis=-1) > 0).sum(axis=-1)
     cols_used = (filled.sum(axis=-2) > 0).sum(axis=-1)
     defined = (rows_used >= 2) & (cols_used >= 2)
@@ -244,8 +251,13 @@ def ordinal_measure_arrays(
     two-way contingency tables. JASA 72, 309-315.
     Agresti, A. (2010). Analysis of Ordinal Categorical Data, 2nd ed., Wiley, ch. 7.
     """
-    n = np.asarray(counts, dtype=float)
-    sampling = sampling or Sampling()
+    with np.errstate(invalid="ignore", divide="ignore"):  # undefined: NaN, explained later
+        return _ordinal_measure_arrays(np.asarray(counts, dtype=float), sampling or Sampling(),
+                                       gradients)
+
+
+def _ordinal_measure_arrays(n, sampling, gradients):
+    """The body of :func:`ordinal_measure_arrays` (NaN where a denominator is 0)."""
     total = n.sum(axis=(-2, -1))
     rows = n.sum(axis=-1)
     cols = n.sum(axis=-2)
@@ -265,29 +277,27 @@ def ordinal_measure_arrays(
     col_grid = cols[..., None, :]
     w = np.sqrt(np.maximum(w_r * w_c, 0.0))  # rounding: w_r < 0 by 1 ulp
     m = np.minimum((rows > 0).sum(axis=-1), (cols > 0).sum(axis=-1)).astype(float)
-    with np.errstate(invalid="ignore", divide="ignore"):  # empty table: NaN, explained later
-        tau_c_den = np.where(m >= 2, (m - 1) * total**2 / m, np.nan)
-        w_inverse = _divide(1.0, w)
+    tau_c_den = np.where(m >= 2, (m - 1) * total**2 / m, np.nan)
+    w_inverse = _inverse(w)
 
     # Every measure but Spearman's is a quotient S / den whose numerator has the gradient
     # 2 d_ij; with den's gradient den'_ij it has the gradient (2 d_ij den - S den'_ij) / den^2.
     dens = np.stack([P + Q, w_r, w_c, (w_r + w_c) / 2, w, tau_c_den], axis=-1)
-    den_grads = np.stack(np.broadcast_arrays(
-        2 * (conc + disc),
-        2 * (N - row_grid),
-        2 * (N - col_grid),
-        2 * N - row_grid - col_grid,
-        # d w / d n_ij = (w_c (n - n_i+) + w_r (n - n_+j)) / w
-        ((N - row_grid) * _expand(w_c) + (N - col_grid) * _expand(w_r)) * _expand(w_inverse),
-        # tau-c's den (m - 1) n^2 / m has the same gradient 2 (m - 1) n / m in every cell: the
-        # multinomial variance ignores it, survey-weight variances do not
-        _expand(2 * tau_c_den / total) + 0 * n,
-    ), axis=-3)
-    inverse = _divide(1.0, dens)
-    estimates = _divide(S[..., None], dens)
-    with np.errstate(invalid="ignore"):
-        grads = (_expand(2 * inverse) * d[..., None, :, :]
-                 - _expand(S[..., None] * inverse**2) * den_grads)
+    den_grads = np.empty((*n.shape[:-2], 6, *n.shape[-2:]))
+    den_grads[..., 0, :, :] = 2 * (conc + disc)
+    den_grads[..., 1, :, :] = 2 * (N - row_grid)
+    den_grads[..., 2, :, :] = 2 * (N - col_grid)
+    den_grads[..., 3, :, :] = 2 * N - row_grid - col_grid
+    # d w / d n_ij = (w_c (n - n_i+) + w_r (n - n_+j)) / w
+    den_grads[..., 4, :, :] = ((N - row_grid) * _expand(w_c)
+                               + (N - col_grid) * _expand(w_r)) * _expand(w_inverse)
+    # tau-c's den (m - 1) n^2 / m has the same gradient 2 (m - 1) n / m in every cell: the
+    # multinomial variance ignores it, survey-weight variances do not
+    den_grads[..., 5, :, :] = _expand(2 * tau_c_den / total)
+    inverse = _inverse(dens)
+    estimates = S[..., None] * inverse
+    grads = (_expand(2 * inverse) * d[..., None, :, :]
+             - _expand(S[..., None] * inverse**2) * den_grads)
     spearman = _spearman(n, rows, cols, total, sampling, gradients=True)
     grads = np.concatenate([grads, spearman["gradient"][..., None, :, :]], axis=-3)
     stacked = sampling
@@ -298,8 +308,7 @@ def ordinal_measure_arrays(
     # The null gradient of every quotient is 2 d_ij / den, so one variance of the numerator
     # P - Q serves them all.
     numerator_se = np.sqrt(delta_variance(n, 2 * d, sampling))
-    with np.errstate(invalid="ignore"):
-        nulls = numerator_se[..., None] * np.abs(inverse)
+    nulls = numerator_se[..., None] * np.abs(inverse)
     flags = _bound_flags(n, filled, both[0][1], both[1][1])
 
     out: dict[str, dict[str, np.ndarray]] = {}

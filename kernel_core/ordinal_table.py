@@ -20,7 +20,7 @@ from .control_variable import (
 from .cumulative_logit import cumulative_logit_frame
 from .diagnostics import Diagnostics, diagnose
 from .independence import PermutationResult, permutation_test, tests_frame
-from .measure_table import measures_frame
+from .measure_table import interval_quantile, measures_frame
 from .non_substantive import flagged_labels, off_scale_note
 from .ordinal_measures import Sampling
 from .polychoric import polychoric
@@ -276,7 +276,9 @@ class OrdinalTable:
             extra_note=self._non_substantive_note()))
 
     def _once(self, key: tuple, compute) -> pd.DataFrame:
-        """``compute()``'s frame, computed on the first call with this key and copied out."""
+        """``compute()``'s frame, computed on the first call with this key (the last item the
+        confidence level) and copied out."""
+        interval_quantile(key[-1])  # a bad confidence is refused before it is looked up
         found = self._kept.get(key)
         if found is None:
             found = compute()
