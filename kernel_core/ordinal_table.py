@@ -247,7 +247,7 @@ class OrdinalTable:
         pandas.DataFrame
             Indexed by measure key: ``gamma``, ``somers_d_col_given_row``,
             ``somers_d_row_given_col``, ``somers_d_symmetric``, ``tau_b``, ``tau_c``,
-            ``spearman_rho``, ``cramers_v`` and, for 2 x 2 tables, ``odds_ratio``,
+            ``spearman_rho``, ``polychoric``, ``cramers_v`` and, for 2 x 2 tables, ``odds_ratio``,
             ``yules_q``, ``yules_y``, ``risk_difference``, ``relative_risk``. Columns
             ``estimate, std_error, ci_low, ci_high, std_error_null, z, p_value, note``.
 
@@ -266,6 +266,9 @@ class OrdinalTable:
         :func:`rankfold.two_by_two.two_by_two_measures`; undefined measures are NaN with the
         reason in ``note``. An association is not evidence of a cause, and choosing
         a coding because it gives the strongest value inflates false findings.
+
+        The table keeps the result for each confidence level (it is immutable), so a second
+        call costs a copy; every call returns a frame of its own.
 
         References
         ----------
@@ -416,7 +419,8 @@ class OrdinalTable:
         pandas.DataFrame
             See :func:`rankfold.control_variable.control_measures`; each level's rows are computed
             as in
-            :meth:`measures`, which gives the formulas and sources.
+            :meth:`measures`, which gives the formulas and sources. Kept per confidence level
+            like :meth:`measures`; every call returns a frame of its own.
         """
         return self._once(("control_measures", confidence),
                           lambda: control_measures(self, confidence))
