@@ -432,20 +432,22 @@ def inference_frame(
     est = np.asarray(estimate, dtype=float)
     se = np.asarray(std_error, dtype=float)
     se0 = np.asarray(std_error_null, dtype=float)
-    lo, hi = np.asarray(bounds if bounds is not None else [(-1.0, 1.0)] * size, dtype=float).T
+    lo, hi = (-1.0, 1.0) if bounds is None else np.asarray(bounds, dtype=float).T
     logs = np.asarray(log_scale if log_scale is not None else [False] * size, dtype=bool)
     bound = np.asarray(on_bound if on_bound is not None else [False] * size, dtype=bool)
     # overflow: a log-scale interval whose end is beyond floating point is +inf (tiny totals)
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
-        centre = np.where(logs, np.log(np.where(est > 0, est, np.nan)), est)
-        ci_low = np.where(
-            logs, np.exp(centre - crit * se), np.minimum(np.maximum(est - crit * se, lo), hi)
-        )
-        ci_high = np.where(
-            logs, np.exp(centre + crit * se), np.minimum(np.maximum(est + crit * se, lo), hi)
-        )
-        ci_low = np.where(bound, np.nan, ci_low)
-        ci_high = np.where(bound, np.nan, ci_high)
+        half = crit * se
+        ci_low = np.minimum(np.maximum(est - half, lo), hi)
+        ci_high = np.minimum(np.maximum(est + half, lo), hi)
+        centre = est
+        if logs.any():  # ratios: the interval and z on the log scale
+            centre = np.where(logs, np.log(np.where(est > 0, est, np.nan)), est)
+            ci_low = np.where(logs, np.exp(centre - half), ci_low)
+            ci_high = np.where(logs, np.exp(centre + half), ci_high)
+        if bound.any():
+            ci_low = np.where(bound, np.nan, ci_low)
+            ci_high = np.where(bound, np.nan, ci_high)
         z = np.where(se0 > 0, centre / np.where(se0 > 0, se0, 1.0), np.nan)
     p = normal_p_value(z)
     if p_values is not None:
