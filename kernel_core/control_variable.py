@@ -21,7 +21,7 @@ import pandas as pd
 
 from .concordance import cell_concordance
 from .independence import _resolve_scores
-from .measure_table import inference_frame, interval_quantile, measures_frame, sampling_note
+from .measure_table import inference_frame, interval_quantile, measures_frames, sampling_note
 from .ordinal_measures import Sampling, delta_variance, ordinal_measure_arrays
 from .scipy_special import special
 
@@ -144,23 +144,18 @@ def control_measures(table: OrdinalTable, confidence: float = 0.95) -> pd.DataFr
         Index ``(level, measure)``; columns and meaning as :meth:`OrdinalTable.measures`
         applied to each level alone (with sampling weights, each level's own records and
         effective size). ``.xs(label, level=0)`` gives one level's measures.
+
+    Notes
+    -----
+    Computed for all levels at once (:func:`rankfold.measure_table.measures_frames`: one
+    batched call of the ordinal measures and one of the polychoric fit); the values are those
+    of each level's own table, :meth:`control_table`, measured alone.
     """
     _require_control(table, "control_measures")
-    levels = [single_level(table, label) for label in table.control_labels]
-    sampling = Sampling()
-    if table.squared_weights is not None:
-        sampling = Sampling(table.squared_weights, table.records.sum(axis=(1, 2)))
-    batched = ordinal_measure_arrays(np.asarray(table.cells, dtype=float), sampling)
-    frames = [
-        measures_frame(level._pooled(), sampling=level._sampling(), confidence=confidence,
-                       extra_note=level._non_substantive_note(),
-                       arrays={key: {f: v[k] for f, v in found.items()}
-                               for key, found in batched.items()})
-        for k, level in enumerate(levels)
-    ]
-    return pd.concat(
-        frames, keys=pd.Index(list(table.control_labels), dtype=object),
-        names=[table.control_name, "measure"],
+    return measures_frames(
+        np.asarray(table.cells, dtype=float), sampling=_level_sampling(table),
+        confidence=confidence, extra_note=table._non_substantive_note(),
+        levels=pd.Index(list(table.control_labels), dtype=object, name=table.control_name),
     )
 
 

@@ -102,6 +102,11 @@ def _divide(num: np.ndarray, den: np.ndarray) -> np.ndarray:
     return out
 
 
+def _inverse(den: np.ndarray) -> np.ndarray:
+    """``1 / den``, NaN where ``den`` is 0 (inside ``np.errstate(divide="ignore")``)."""
+    return np.where(den != 0, 1 / den, np.nan)
+
+
 def _expand(x: np.ndarray) -> np.ndarray:
     """Batch-shaped array -> broadcastable against (..., I, J)."""
     return np.asarray(x)[..., None, None]
@@ -147,9 +152,15 @@ def bound_flags(counts: np.ndarray) -> dict[str, np.ndarray]:
     """
     n = np.asarray(counts, dtype=float)
     filled = (n > 0).astype(float)
-    conc, disc = cell_concordance(filled)
+    return _bound_flags(n, filled, *cell_concordance(filled))
+
+
+def _bound_flags(n, filled, conc, disc):
+    """:func:`bound_flags` given the 0/1 table of non-empty cells and its concordance."""
     no_concordant = (filled * conc).sum(axis=(-2, -1)) == 0
     no_discordant = (filled * disc).sum(axis=(-2, -1)) == 0
+    if not (no_concordant | no_discordant).any():  # the usual case: nothing on a bound
+        return {key: np.zeros(no_concordant.shape, dtype=bool) for key in ORDINAL_MEASURES}
     rows_used = (filled.sum(axis=-1) > 0).sum(axis=-1)
     cols_used = (filled.sum(axis=-2) > 0).sum(axis=-1)
     defined = (rows_used >= 2) & (cols_used >= 2)
@@ -240,12 +251,20 @@ def ordinal_measure_arrays(
     two-way contingency tables. JASA 72, 309-315.
     Agresti, A. (2010). Analysis of Ordinal Categorical Data, 2nd ed., Wiley, ch. 7.
     """
-    n = np.asarray(counts, dtype=float)
-    sampling = sampling or Sampling()
+    with np.errstate(invalid="ignore", divide="ignore"):  # undefined: NaN, explained later
+        return _ordinal_measure_arrays(np.asarray(counts, dtype=float), sampling or Sampling(),
+                                       gradients)
+
+
+def _ordinal_measure_arrays(n, sampling, gradients):
+    """The body of :func:`ordinal_measure_arrays` (NaN where a denominator is 0)."""
     total = n.sum(axis=(-2, -1))
     rows = n.sum(axis=-1)
     cols = n.sum(axis=-2)
-    conc, disc = cell_concordance(n)
+    # the counts and the 0/1 table of non-empty cells (for bound_flags) in one pass
+    filled = (n > 0).astype(float)
+    both = cell_concordance(np.stack([n, filled]))
+    conc, disc = both[0][0], both[1][0]
     d = conc - disc
     P = (n * conc).sum(axis=(-2, -1))
     Q = (n * disc).sum(axis=(-2, -1))
@@ -256,64 +275,59 @@ def ordinal_measure_arrays(
     N = _expand(total)
     row_grid = rows[..., :, None]
     col_grid = cols[..., None, :]
+    w = np.sqrt(np.maximum(w_r * w_c, 0.0))  # rounding: w_r < 0 by 1 ulp
+    m = np.minimum((rows > 0).sum(axis=-1), (cols > 0).sum(axis=-1)).astype(float)
+    tau_c_den = np.where(m >= 2, (m - 1) * total**2 / m, np.nan)
+    w_inverse = _inverse(w)
 
-    # The null gradient of every measure below is 2 d_ij times a per-table constant, so one
-    # variance of the numerator P - Q serves them all.
+    # Every measure but Spearman's is a quotient S / den whose numerator has the gradient
+    # 2 d_ij; with den's gradient den'_ij it has the gradient (2 d_ij den - S den'_ij) / den^2.
+    dens = np.stack([P + Q, w_r, w_c, (w_r + w_c) / 2, w, tau_c_den], axis=-1)
+    den_grads = np.empty((*n.shape[:-2], 6, *n.shape[-2:]))
+    den_grads[..., 0, :, :] = 2 * (conc + disc)
+    den_grads[..., 1, :, :] = 2 * (N - row_grid)
+    den_grads[..., 2, :, :] = 2 * (N - col_grid)
+    den_grads[..., 3, :, :] = 2 * N - row_grid - col_grid
+    # d w / d n_ij = (w_c (n - n_i+) + w_r (n - n_+j)) / w
+    den_grads[..., 4, :, :] = ((N - row_grid) * _expand(w_c)
+                               + (N - col_grid) * _expand(w_r)) * _expand(w_inverse)
+    # tau-c's den (m - 1) n^2 / m has the same gradient 2 (m - 1) n / m in every cell: the
+    # multinomial variance ignores it, survey-weight variances do not
+    den_grads[..., 5, :, :] = _expand(2 * tau_c_den / total)
+    inverse = _inverse(dens)
+    estimates = S[..., None] * inverse
+    grads = (_expand(2 * inverse) * d[..., None, :, :]
+             - _expand(S[..., None] * inverse**2) * den_grads)
+    spearman = _spearman(n, rows, cols, total, sampling, gradients=True)
+    grads = np.concatenate([grads, spearman["gradient"][..., None, :, :]], axis=-3)
+    stacked = sampling
+    if sampling.squared is not None:
+        stacked = Sampling(np.asarray(sampling.squared, dtype=float)[..., None, :, :],
+                           np.asarray(sampling.records, dtype=float)[..., None])
+    errors = np.sqrt(delta_variance(n[..., None, :, :], grads, stacked))
+    # The null gradient of every quotient is 2 d_ij / den, so one variance of the numerator
+    # P - Q serves them all.
     numerator_se = np.sqrt(delta_variance(n, 2 * d, sampling))
-
-    def finish(estimate, grad, null_scale):
-        with np.errstate(invalid="ignore"):
-            null = numerator_se * np.abs(null_scale)
-        found = {
-            "estimate": estimate,
-            "std_error": np.sqrt(delta_variance(n, grad, sampling)),
-            "std_error_null": null,
-        }
-        if gradients:
-            found["gradient"] = grad
-        return found
+    nulls = numerator_se[..., None] * np.abs(inverse)
+    flags = _bound_flags(n, filled, both[0][1], both[1][1])
 
     out: dict[str, dict[str, np.ndarray]] = {}
-
-    # Each quotient numerator / den: numerator gradient 2 d_ij, den gradient given.
-    def ratio(den, den_grad):
-        inverse = _divide(1.0, den)
-        with np.errstate(invalid="ignore"):
-            # (2 d_ij den - S den_grad) / den^2, with the per-table factors taken first
-            grad = _expand(2 * inverse) * d - _expand(S * inverse**2) * den_grad
-        return finish(_divide(S, den), grad, inverse)
-
-    out["gamma"] = ratio(P + Q, 2 * (conc + disc))
-    out["somers_d_col_given_row"] = ratio(w_r, 2 * (N - row_grid))
-    out["somers_d_row_given_col"] = ratio(w_c, 2 * (N - col_grid))
-    out["somers_d_symmetric"] = ratio((w_r + w_c) / 2, 2 * N - row_grid - col_grid)
-
-    w = np.sqrt(np.maximum(w_r * w_c, 0.0))  # rounding: w_r < 0 by 1 ulp
-    tau_b = _divide(S, w)
-    inverse = _divide(1.0, w)
-    # v_ij - n (w_r + w_c) = -(w_c (n - n_i+) + w_r (n - n_+j)), summed without cancellation
-    spread = (N - row_grid) * _expand(w_c) + (N - col_grid) * _expand(w_r)
-    with np.errstate(invalid="ignore"):
-        grad = _expand(2 * inverse) * d - _expand(tau_b * inverse**2) * spread
-    out["tau_b"] = finish(tau_b, grad, inverse)
-
-    m = np.minimum((rows > 0).sum(axis=-1), (cols > 0).sum(axis=-1)).astype(float)
-    scale = _divide(m, (m - 1) * total**2)
-    scale = np.where(m >= 2, scale, np.nan)
-    # d/dn_ij of S / n^2 is (2 d_ij - 2 S / n) / n^2: the second term is the same in every
-    # cell, so multinomial variances ignore it, but survey-weight variances do not.
-    with np.errstate(invalid="ignore", divide="ignore"):  # empty table: NaN, explained later
-        grad = 2 * (d - _expand(S) / N) * _expand(scale)
-    out["tau_c"] = finish(S * scale, grad, scale)
-
-    out["spearman_rho"] = _spearman(n, rows, cols, total, sampling, gradients)
-    # On its bound the delta-method error is 0 in exact arithmetic; rounding leaves ~1e-17.
-    for key, flag in bound_flags(n).items():
-        found = out[key]
+    for k, key in enumerate(ORDINAL_MEASURES):
+        if key == "spearman_rho":
+            found = {f: spearman[f] for f in ("estimate", "std_error_null")}
+        else:
+            found = {"estimate": estimates[..., k], "std_error_null": nulls[..., k]}
+        found["std_error"] = errors[..., k]
+        if gradients:
+            found["gradient"] = grads[..., k, :, :]
+        # On its bound the delta-method error is 0 in exact arithmetic; rounding leaves ~1e-17.
+        flag = flags[key]
         found["on_bound"] = flag
         if flag.any():
             found["estimate"] = np.where(flag, np.sign(found["estimate"]), found["estimate"])
             found["std_error"] = np.where(flag, 0.0, found["std_error"])
+        out[key] = {f: found[f] for f in ("estimate", "std_error", "std_error_null", "on_bound",
+                                          *(("gradient",) if gradients else ()))}
     return out
 
 

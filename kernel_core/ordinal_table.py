@@ -20,7 +20,7 @@ from .control_variable import (
 from .cumulative_logit import cumulative_logit_frame
 from .diagnostics import Diagnostics, diagnose
 from .independence import PermutationResult, permutation_test, tests_frame
-from .measure_table import measures_frame
+from .measure_table import interval_quantile, measures_frame
 from .non_substantive import flagged_labels, off_scale_note
 from .ordinal_measures import Sampling
 from .polychoric import polychoric
@@ -126,6 +126,9 @@ class OrdinalTable:
     collected_from: OrdinalTable | None = field(default=None, repr=False)
     row_map: tuple[int, ...] | None = field(default=None, repr=False)
     col_map: tuple[int, ...] | None = field(default=None, repr=False)
+    # Results computed once per table (it is immutable) and handed out as copies; a new table
+    # (every coding step, replace()) starts with an empty one.
+    _kept: dict = field(default_factory=dict, init=False, repr=False, compare=False)
 
     def __post_init__(self) -> None:
         for name in ("cells", "squared_weights", "records"):
@@ -244,7 +247,7 @@ class OrdinalTable:
         pandas.DataFrame
             Indexed by measure key: ``gamma``, ``somers_d_col_given_row``,
             ``somers_d_row_given_col``, ``somers_d_symmetric``, ``tau_b``, ``tau_c``,
-            ``spearman_rho``, ``cramers_v`` and, for 2 x 2 tables, ``odds_ratio``,
+            ``spearman_rho``, ``polychoric``, ``cramers_v`` and, for 2 x 2 tables, ``odds_ratio``,
             ``yules_q``, ``yules_y``, ``risk_difference``, ``relative_risk``. Columns
             ``estimate, std_error, ci_low, ci_high, std_error_null, z, p_value, note``.
 
@@ -264,12 +267,26 @@ class OrdinalTable:
         reason in ``note``. An association is not evidence of a cause, and choosing
         a coding because it gives the strongest value inflates false findings.
 
+        The table keeps the result for each confidence level (it is immutable), so a second
+        call costs a copy; every call returns a frame of its own.
+
         References
         ----------
         Agresti, A. (2010). Analysis of Ordinal Categorical Data, 2nd ed., Wiley, ch. 7.
         """
-        return measures_frame(self._pooled(), sampling=self._sampling(), confidence=confidence,
-                              extra_note=self._non_substantive_note())
+        return self._once(("measures", confidence), lambda: measures_frame(
+            self._pooled(), sampling=self._sampling(), confidence=confidence,
+            extra_note=self._non_substantive_note()))
+
+    def _once(self, key: tuple, compute) -> pd.DataFrame:
+        """``compute()``'s frame, computed on the first call with this key (the last item the
+        confidence level) and copied out."""
+        interval_quantile(key[-1])  # a bad confidence is refused before it is looked up
+        found = self._kept.get(key)
+        if found is None:
+            found = compute()
+            self._kept[key] = found
+        return found.copy()
 
     def tests(self, scores: str | Sequence[Sequence[float]] | None = None) -> pd.DataFrame:
         """Tests of independence: Pearson X², likelihood-ratio G², linear trend M² = (n − 1) r².
@@ -402,9 +419,11 @@ class OrdinalTable:
         pandas.DataFrame
             See :func:`rankfold.control_variable.control_measures`; each level's rows are computed
             as in
-            :meth:`measures`, which gives the formulas and sources.
+            :meth:`measures`, which gives the formulas and sources. Kept per confidence level
+            like :meth:`measures`; every call returns a frame of its own.
         """
-        return control_measures(self, confidence)
+        return self._once(("control_measures", confidence),
+                          lambda: control_measures(self, confidence))
 
     def partial_measures(
         self, confidence: float = 0.95, control_totals: str = "random"
