@@ -15,7 +15,8 @@ from __future__ import annotations
 
 import math
 from collections.abc import Callable, Iterator, Mapping, Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 import pandas as pd
@@ -24,6 +25,13 @@ from .control_variable import partial_gamma_arrays
 from .cumulative_logit import cumulative_logit_arrays
 from .diagnostics import sparse_cell_figures
 from .measure_table import measure_label
+from .merge_sweep_kernel import (
+    SWEEP_KERNEL_MEASURES,
+    batch_view,
+    merge_matrices,
+    merged_cells,
+    sweep_measure_arrays,
+)
 from .ordinal_measures import ORDINAL_MEASURES, Sampling, delta_variance, ordinal_measure_arrays
 from .ordinal_table import OrdinalTable
 from .polychoric import polychoric_arrays
@@ -305,45 +313,81 @@ def _plan(
     return rows, cols
 
 
-def _collapse(prefix: np.ndarray, row_bounds: np.ndarray, col_bounds: np.ndarray) -> np.ndarray:
-    """Collapsed tables ``(B, K, I', J')`` from the prefix sums ``(K, I + 1, J + 1)`` of K levels.
-
-    Cell ``(a, b)`` of a collapsed table is
-    ``S[r_(a+1), c_(b+1)] - S[r_a, c_(b+1)] - S[r_(a+1), c_b] + S[r_a, c_b]`` with ``S`` the
-    prefix sums padded by a leading row and column of zeros (a summed-area table, Crow 1984,
-    SIGGRAPH 84, Computer Graphics 18(3):207-212).
-    """
-    corners = np.moveaxis(prefix[:, row_bounds[:, :, None], col_bounds[:, None, :]], 0, 1)
-    return np.diff(np.diff(corners, axis=-2), axis=-1)
-
-
-def _prefix(cells: np.ndarray) -> np.ndarray:
-    out = np.zeros((*cells.shape[:-2], cells.shape[-2] + 1, cells.shape[-1] + 1), cells.dtype)
-    out[..., 1:, 1:] = cells.cumsum(axis=-2).cumsum(axis=-1)
-    return out
-
-
 @dataclass(frozen=True)
 class _Batch:
-    """Codings of one collapsed shape: positions in each axis's list and the collapsed tables.
+    """Codings of one collapsed shape ``(I', J')``: positions in each axis's list and the
+    merged tables, cells first (``(I', J', B)``, see :mod:`rankfold.merge_sweep_kernel`).
 
-    ``cells`` and ``squared`` keep the levels, ``(B, K, I', J')``; ``counts`` pools them.
-    ``observed`` is what sparseness is judged on: records per cell (pooled) when the cells
-    are sums of sampling weights, the counts otherwise.
+    ``counts`` pools the levels of a control variable and ``squared`` the sums of squared
+    sampling weights (None without them). ``observed`` is what sparseness is judged on:
+    records per cell when the cells are sums of sampling weights, the counts otherwise.
+    :meth:`level_cells` gives each level's merged tables, for partial gamma.
     """
 
     row_index: np.ndarray
     col_index: np.ndarray
+    row_merge: np.ndarray
+    col_merge: np.ndarray
+    sources: _Sources
+
+    def _merged(self, cells: np.ndarray) -> np.ndarray:
+        return merged_cells(cells, self.row_merge, self.col_merge)
+
+    @cached_property
+    def counts(self) -> np.ndarray:
+        return self._merged(self.sources.pooled)
+
+    @cached_property
+    def squared(self) -> np.ndarray | None:
+        squared = self.sources.squared
+        return None if squared is None else self._merged(squared.sum(axis=0))
+
+    @cached_property
+    def observed(self) -> np.ndarray:
+        records = self.sources.records
+        return self.counts if records is None else self._merged(records.sum(axis=0))
+
+    def level_cells(self) -> tuple[np.ndarray, np.ndarray | None]:
+        """Each level's merged cells and squared weights, ``(B, K, I', J')`` (views)."""
+        found = []
+        for source in (self.sources.cells, self.sources.squared):
+            if source is None:
+                found.append(None)
+                continue
+            levels = np.stack([self._merged(level) for level in source])  # (K, I', J', B)
+            found.append(np.moveaxis(levels, -1, 0))
+        return found[0], found[1]
+
+
+@dataclass(frozen=True)
+class _Sources:
+    """The swept table's cells as floats: per level ``(K, I, J)`` and pooled ``(I, J)``."""
+
     cells: np.ndarray
     squared: np.ndarray | None
-    records: np.ndarray | None = None
-    counts: np.ndarray = field(init=False)
-    observed: np.ndarray = field(init=False)
+    records: np.ndarray | None
+    pooled: np.ndarray
 
-    def __post_init__(self) -> None:
-        object.__setattr__(self, "counts", self.cells.sum(axis=1))
-        observed = self.counts if self.records is None else self.records.sum(axis=1)
-        object.__setattr__(self, "observed", observed)
+    @classmethod
+    def of(cls, table: OrdinalTable) -> _Sources:
+        cells = np.asarray(table.cells, dtype=float)
+        squared = (None if table.squared_weights is None
+                   else np.asarray(table.squared_weights, dtype=float))
+        records = None if squared is None else np.asarray(table.records, dtype=float)
+        return cls(cells, squared, records, cells.sum(axis=0))
+
+
+def _blocks(row_count: int, col_count: int, chunk_size: int) -> Iterator[tuple[slice, slice]]:
+    """Rectangles of (row coding, column coding) positions of at most ``chunk_size`` pairs,
+    in the order of the pairs flattened row by row."""
+    if col_count <= chunk_size:
+        step = chunk_size // col_count
+        for start in range(0, row_count, step):
+            yield slice(start, min(start + step, row_count)), slice(0, col_count)
+        return
+    for row in range(row_count):
+        for start in range(0, col_count, chunk_size):
+            yield slice(row, row + 1), slice(start, min(start + chunk_size, col_count))
 
 
 def _batches(
@@ -353,32 +397,26 @@ def _batches(
     chunk_size: int,
     progress: Progress | None,
 ) -> Iterator[_Batch]:
-    """Collapsed tables of every coding pair, by shape, at most ``chunk_size`` at a time."""
-    prefix = _prefix(table.cells)
-    squared = None if table.squared_weights is None else _prefix(table.squared_weights)
-    records = None if squared is None else _prefix(np.asarray(table.records, dtype=float))
+    """Merged tables of every coding pair, by shape, at most ``chunk_size`` at a time."""
+    sources = _Sources.of(table)
     total = len(rows.cuts) * len(cols.cuts)
     done = 0
     for r in np.unique(rows.groups):
         row_sel = np.flatnonzero(rows.groups == r)
-        row_bounds = rows.bounds(row_sel)
+        row_merge = merge_matrices(rows.group_of(row_sel), int(r))
         for c in np.unique(cols.groups):
             col_sel = np.flatnonzero(cols.groups == c)
-            col_bounds = cols.bounds(col_sel)
-            pairs = len(row_sel) * len(col_sel)
-            for start in range(0, pairs, chunk_size):
-                flat = np.arange(start, min(start + chunk_size, pairs))
-                ri, ci = flat // len(col_sel), flat % len(col_sel)
+            col_merge = merge_matrices(cols.group_of(col_sel), int(c))
+            for row_block, col_block in _blocks(len(row_sel), len(col_sel), chunk_size):
+                ri, ci = row_sel[row_block], col_sel[col_block]
                 yield _Batch(
-                    row_index=row_sel[ri],
-                    col_index=col_sel[ci],
-                    cells=_collapse(prefix, row_bounds[ri], col_bounds[ci]),
-                    squared=None if squared is None
-                    else _collapse(squared, row_bounds[ri], col_bounds[ci]),
-                    records=None if records is None
-                    else _collapse(records, row_bounds[ri], col_bounds[ci]),
+                    row_index=np.repeat(ri, len(ci)),
+                    col_index=np.tile(ci, len(ri)),
+                    row_merge=row_merge[row_block],
+                    col_merge=col_merge[col_block],
+                    sources=sources,
                 )
-                done += len(flat)
+                done += len(ri) * len(ci)
                 if progress is not None:
                     progress(done, total)
 
@@ -498,23 +536,38 @@ class _Columns:
             "row_index": batch.row_index,
             "col_index": batch.col_index,
         }
+        counts = batch.counts  # cells first, (I', J', B)
         if batch.squared is None:
             pooled = controlled = Sampling()
+            records = None
         else:
-            pooled = Sampling(batch.squared.sum(axis=1), self.level_records.sum())
-            controlled = Sampling(batch.squared, self.level_records)
-        counts = batch.counts
-        found = ordinal_measure_arrays(counts, pooled, gradients=self.base is not None)
+            records = self.level_records.sum()
+            pooled = Sampling(batch_view(batch.squared), records)
+        gradients = self.base is not None
+        found = sweep_measure_arrays(
+            counts, [m for m in self.measures if m in SWEEP_KERNEL_MEASURES], batch.squared,
+            records, gradients)
+        for key in found:  # the changes take gradients batch first, (B, I', J')
+            if gradients:
+                found[key]["gradient"] = batch_view(found[key]["gradient"])
+        if "spearman_rho" in self.measures:
+            found["spearman_rho"] = ordinal_measure_arrays(
+                batch_view(counts), pooled, gradients=gradients)["spearman_rho"]
         if PARTIAL in self.measures:
-            found[PARTIAL] = partial_gamma_arrays(batch.cells, controlled)
+            cells, squared = batch.level_cells()
+            if squared is not None:
+                controlled = Sampling(squared, self.level_records)
+            found[PARTIAL] = partial_gamma_arrays(cells, controlled)
         if "polychoric" in self.measures:
-            found["polychoric"] = polychoric_arrays(counts, pooled)
+            found["polychoric"] = polychoric_arrays(np.ascontiguousarray(batch_view(counts)),
+                                                    pooled)
         if "cumulative_logit" in self.measures:
-            found["cumulative_logit"] = cumulative_logit_arrays(counts, sampling=pooled)
+            found["cumulative_logit"] = cumulative_logit_arrays(
+                np.ascontiguousarray(batch_view(counts)), sampling=pooled)
         # As in measures(): with one non-empty category on either variable, every measure is
         # undefined (P - Q is 0 by construction, not by the data).
-        busy = np.minimum((counts.sum(axis=-1) > 0).sum(axis=-1),
-                          (counts.sum(axis=-2) > 0).sum(axis=-1)) >= 2
+        busy = np.minimum((counts.sum(axis=1) > 0).sum(axis=0),
+                          (counts.sum(axis=0) > 0).sum(axis=0)) >= 2
         for key in self.measures:
             estimate = np.where(busy, found[key]["estimate"], np.nan)
             out[key] = estimate
@@ -523,7 +576,7 @@ class _Columns:
                 out[f"{key}_change"], out[f"{key}_change_se"] = self.base.change(
                     key, estimate, found[key].get("gradient"),
                     self.rows.group_of(batch.row_index), self.cols.group_of(batch.col_index))
-        figures = _sparse_columns(batch.observed)
+        figures = _sparse_columns(batch_view(batch.observed))
         for key in ("share_expected_below_5", "min_expected", "zero_cells", "smallest_category"):
             out[key] = figures[key]
         return out
@@ -939,7 +992,7 @@ def suggest_collapsing(
     rows, cols = _plan(table, axes, min_categories, max_schemes, DEFAULT_CHUNK_SIZE)
     balance, row_index, col_index = [], [], []
     for batch in _batches(table, rows, cols, DEFAULT_CHUNK_SIZE, None):
-        figures = _sparse_columns(batch.observed)
+        figures = _sparse_columns(batch_view(batch.observed))
         meets = rule_met(figures, rule, threshold)
         balance.append(figures["category_square_sum"][meets])
         row_index.append(batch.row_index[meets])

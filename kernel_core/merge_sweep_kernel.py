@@ -1,0 +1,308 @@
+"""Merged tables and their ordinal measures for many codings at once, for the collapsing sweep.
+
+The sweep evaluates up to hundreds of thousands of small tables (2 x 2 to 10 x 10). Arrays
+here keep the cells first and the batch last: a batch of ``B`` tables of ``I'`` rows and
+``J'`` columns is an array of shape ``(I', J', B)``, so that every step (a cell-wise product,
+a running sum over rows, a sum over cells) runs over long contiguous runs of the batch instead
+of over tiny tables one at a time. :func:`batch_view` shows such an array in the core's usual
+shape ``(B, I', J')`` (a view, no copy), which is how :func:`delta_variance`, the one variance
+rule, receives the gradients below.
+
+Merging neighbouring categories is linear: the merged table of a row coding ``R`` (a 0/1
+matrix of shape ``(I', I)``, one row per merged category) and a column coding ``C`` is
+``R N C^T``. For every row coding of one size and every column coding of one size this is
+two matrix products, with exact sums for whole counts and exact zeros for empty blocks.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+
+import numpy as np
+
+from .ordinal_measures import Sampling, delta_variance
+
+__all__ = [
+    "SWEEP_KERNEL_MEASURES",
+    "batch_view",
+    "concordance_cells_first",
+    "merge_matrices",
+    "merged_cells",
+    "sweep_measure_arrays",
+]
+
+#: The measures :func:`sweep_measure_arrays` computes (the others come from the core's
+#: :func:`~rankfold.ordinal_measures.ordinal_measure_arrays`).
+SWEEP_KERNEL_MEASURES = (
+    "gamma",
+    "somers_d_col_given_row",
+    "somers_d_row_given_col",
+    "somers_d_symmetric",
+    "tau_b",
+    "tau_c",
+)
+
+
+def merge_matrices(groups: np.ndarray, count: int) -> np.ndarray:
+    """0/1 merge matrices of several codings of one axis into ``count`` categories.
+
+    Parameters
+    ----------
+    groups : ndarray of int, shape (M, I)
+        For each coding, the merged category each original category falls in.
+    count : int
+        Number of merged categories of every coding.
+
+    Returns
+    -------
+    ndarray, shape (M, count, I)
+        ``out[k, a, i]`` is 1 when category ``i`` belongs to merged category ``a`` of coding
+        ``k``, else 0.
+    """
+    return (np.asarray(groups)[:, None, :] == np.arange(count)[None, :, None]).astype(float)
+
+
+def merged_cells(cells: np.ndarray, row_merge: np.ndarray, col_merge: np.ndarray) -> np.ndarray:
+    """Every merged table ``R_k N C_l^T`` of one table, cells first.
+
+    Parameters
+    ----------
+    cells : ndarray, shape (I, J)
+        The table as swept.
+    row_merge : ndarray, shape (M_r, I', I)
+        Row merge matrices (:func:`merge_matrices`).
+    col_merge : ndarray, shape (M_c, J', J)
+        Column merge matrices.
+
+    Returns
+    -------
+    ndarray, shape (I', J', M_r * M_c)
+        The merged tables, the batch ordered by row coding, then column coding.
+
+    Notes
+    -----
+    Each merged cell sums the original cells of its block (the other terms are products with
+    0), so whole counts stay exact and a block without units is exactly 0.
+    """
+    m_r, rows, size_r = row_merge.shape
+    m_c, cols, size_c = col_merge.shape
+    left = row_merge.reshape(m_r * rows, size_r) @ np.asarray(cells, dtype=float)
+    both = left @ col_merge.reshape(m_c * cols, size_c).T  # (M_r * I', M_c * J')
+    both = both.reshape(m_r, rows, m_c, cols).transpose(1, 3, 0, 2)
+    return np.ascontiguousarray(both).reshape(rows, cols, m_r * m_c)
+
+
+def batch_view(x: np.ndarray) -> np.ndarray:
+    """A cells-first array ``(I', J', B)`` seen as ``(B, I', J')``, without a copy."""
+    return np.moveaxis(x, (0, 1), (-2, -1))
+
+
+def _running(x: np.ndarray, axis: int, reverse: bool = False) -> np.ndarray:
+    """Inclusive running sums along a cells axis (0 or 1), one slice at a time.
+
+    Summing slice after slice keeps the order of ``numpy.cumsum`` (so the same rounding) and
+    runs over whole batches at once; ``numpy.cumsum`` on a leading axis is far slower.
+    """
+    out = np.array(x, dtype=float, copy=True)
+    view = np.moveaxis(out, axis, 0)
+    steps = range(view.shape[0] - 2, -1, -1) if reverse else range(1, view.shape[0])
+    for k in steps:
+        view[k] += view[k + 1] if reverse else view[k - 1]
+    return out
+
+
+def concordance_cells_first(counts: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Units concordant and discordant with one unit in each cell, for cells-first batches.
+
+    Parameters
+    ----------
+    counts : ndarray, shape (I, J, ...)
+        Cell counts, cells first and the batch after.
+
+    Returns
+    -------
+    concordant, discordant : ndarray, shape (I, J, ...)
+        ``C_ij`` (units strictly above-left or strictly below-right of cell (i, j)) and
+        ``D_ij`` (strictly above-right or below-left), as
+        :func:`rankfold.concordance.cell_concordance` gives them for batch-last arrays.
+
+    Notes
+    -----
+    The same running sums as :func:`rankfold.concordance.cell_concordance` (Goodman &
+    Kruskal 1954; Agresti 2010, ch. 7), in the same order, so a region without units gives
+    exactly 0 also for weighted totals.
+    """
+    n = np.asarray(counts, dtype=float)
+    above = np.zeros_like(n)  # rows < i, columns <= j
+    above[1:] = _running(_running(n[:-1], 0), 1)
+    below = np.zeros_like(n)  # rows > i, columns >= j
+    below[:-1] = _running(_running(n[1:], 0, reverse=True), 1, reverse=True)
+    concordant = np.zeros_like(n)
+    concordant[:, 1:] = above[:, :-1]
+    concordant[:, :-1] += below[:, 1:]
+    # a difference of two running sums that add only zeros in between is exactly 0
+    discordant = above[:, -1:] - above
+    discordant += below[:, :1] - below
+    return concordant, discordant
+
+
+def _divide(num: np.ndarray, den: np.ndarray) -> np.ndarray:
+    """``num / den``, NaN where ``den`` is 0."""
+    num, den = np.broadcast_arrays(np.asarray(num, dtype=float), np.asarray(den, dtype=float))
+    out = np.full(num.shape, np.nan)
+    np.divide(num, den, out=out, where=den != 0)
+    return out
+
+
+def _equal_margin(margin: np.ndarray) -> np.ndarray:
+    """Whether the non-empty categories of a margin ``(k, B)`` hold equal totals (1e-12)."""
+    top = margin.max(axis=0)
+    low = np.where(margin > 0, margin, np.inf).min(axis=0)
+    return top - low <= 1e-12 * top
+
+
+def _bounds(counts, rows, cols, P, Q) -> dict[str, np.ndarray]:
+    """Where each measure sits on its bound, by the rules of
+    :func:`rankfold.ordinal_measures.bound_flags`.
+
+    With non-negative cells and regions without units exactly 0, ``P = 0`` exactly when no
+    two units are concordant (likewise ``Q``), which is what ``bound_flags`` reads from the
+    0/1 table of non-empty cells.
+    """
+    filled = counts > 0
+    rows_used = (rows > 0).sum(axis=0)
+    cols_used = (cols > 0).sum(axis=0)
+    monotone = (rows_used >= 2) & (cols_used >= 2) & ((P == 0) | (Q == 0))
+    col_given_row = monotone & (filled.sum(axis=0) <= 1).all(axis=0)
+    row_given_col = monotone & (filled.sum(axis=1) <= 1).all(axis=0)
+    diagonal = col_given_row & row_given_col
+    tau_c = (col_given_row & (rows_used <= cols_used) & _equal_margin(rows)) | (
+        row_given_col & (cols_used <= rows_used) & _equal_margin(cols)
+    )
+    return {
+        "gamma": monotone,
+        "somers_d_col_given_row": col_given_row,
+        "somers_d_row_given_col": row_given_col,
+        "somers_d_symmetric": diagonal,
+        "tau_b": diagonal,
+        "tau_c": tau_c,
+    }
+
+
+def sweep_measure_arrays(
+    counts: np.ndarray,
+    measures: Sequence[str],
+    squared: np.ndarray | None = None,
+    records: float | None = None,
+    gradients: bool = False,
+) -> dict[str, dict[str, np.ndarray]]:
+    """Estimates and delta-method standard errors of ordinal measures of cells-first batches.
+
+    Parameters
+    ----------
+    counts : ndarray, shape (I, J, B)
+        Cell counts (or sums of weights), cells first.
+    measures : sequence of str
+        Keys from :data:`SWEEP_KERNEL_MEASURES`.
+    squared : ndarray, shape (I, J, B), optional
+        Sums of squared sampling weights per cell; with ``records`` (the number of data rows
+        behind every table) the variances are Taylor-linearised (see
+        :class:`rankfold.ordinal_measures.Sampling`).
+    records : float, optional
+        Data rows behind each table, with ``squared``.
+    gradients : bool
+        Also return each measure's gradient with respect to the cells, shape (I, J, B).
+
+    Returns
+    -------
+    dict
+        For each measure, ``estimate`` and ``std_error`` of shape (B,), ``on_bound``, and
+        ``gradient`` when asked for; the same values as
+        :func:`rankfold.ordinal_measures.ordinal_measure_arrays` gives for the batch (its
+        formulas and sources; Goodman & Kruskal 1963, Somers 1962, Stuart 1953, Agresti
+        2010, ch. 7), up to rounding. Undefined values are NaN.
+
+    Notes
+    -----
+    With ``P = sum n C``, ``Q = sum n D``, ``S = P - Q``, ``d = C - D`` and
+    ``w_r = sum n_i+ (n - n_i+)``: gamma ``= S/(P + Q)``, Somers' d ``= S/w_r`` (and its
+    transpose and symmetric version), tau-b ``= S/sqrt(w_r w_c)``, tau-c
+    ``= m S/((m - 1) n^2)``; each gradient is that of
+    :func:`~rankfold.ordinal_measures.ordinal_measure_arrays`, and every variance is
+    :func:`~rankfold.ordinal_measures.delta_variance` of it (the one variance rule).
+
+    References
+    ----------
+    Goodman, L. A. & Kruskal, W. H. (1963). JASA 58, 310-364.
+    Somers, R. H. (1962). ASR 27, 799-811.
+    Stuart, A. (1953). Biometrika 40, 106-108.
+    Agresti, A. (2010). Analysis of Ordinal Categorical Data, 2nd ed., Wiley, ch. 7.
+    """
+    unknown = [m for m in measures if m not in SWEEP_KERNEL_MEASURES]
+    if unknown:
+        raise ValueError(
+            f"sweep_measure_arrays computes {list(SWEEP_KERNEL_MEASURES)}; got {unknown}."
+        )
+    n = np.asarray(counts, dtype=float)
+    sampling = Sampling() if squared is None else Sampling(batch_view(squared), records)
+    rows, cols = n.sum(axis=1), n.sum(axis=0)  # (I, B), (J, B)
+    total = rows.sum(axis=0)
+    conc, disc = concordance_cells_first(n)
+    P = (n * conc).sum(axis=(0, 1))
+    Q = (n * disc).sum(axis=(0, 1))
+    S = P - Q
+    d = conc - disc
+    row_rest, col_rest = total - rows, total - cols  # n - n_i+, n - n_+j
+    w_r = (rows * row_rest).sum(axis=0)
+    w_c = (cols * col_rest).sum(axis=0)
+    out: dict[str, dict[str, np.ndarray]] = {}
+
+    def finish(key, estimate, grad):
+        found = {
+            "estimate": estimate,
+            "std_error": np.sqrt(delta_variance(batch_view(n), batch_view(grad), sampling)),
+        }
+        if gradients:
+            found["gradient"] = grad
+        out[key] = found
+
+    def ratio(key, den, den_grad):
+        # (2 d_ij den - S den_grad) / den^2, with the per-table factors taken first
+        inverse = _divide(1.0, den)
+        with np.errstate(invalid="ignore"):
+            grad = (2 * inverse) * d
+            grad -= (S * inverse**2) * den_grad
+        finish(key, _divide(S, den), grad)
+
+    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+        if "gamma" in measures:
+            ratio("gamma", P + Q, 2 * (conc + disc))
+        if "somers_d_col_given_row" in measures:
+            ratio("somers_d_col_given_row", w_r, 2 * row_rest[:, None])
+        if "somers_d_row_given_col" in measures:
+            ratio("somers_d_row_given_col", w_c, 2 * col_rest[None, :])
+        if "somers_d_symmetric" in measures:
+            ratio("somers_d_symmetric", (w_r + w_c) / 2, row_rest[:, None] + col_rest[None, :])
+        if "tau_b" in measures:
+            w = np.sqrt(np.maximum(w_r * w_c, 0.0))  # rounding: w_r < 0 by 1 ulp
+            tau_b = _divide(S, w)
+            inverse = _divide(1.0, w)
+            # v_ij - n (w_r + w_c) = -(w_c (n - n_i+) + w_r (n - n_+j)), without cancellation
+            spread = row_rest[:, None] * w_c + col_rest[None, :] * w_r
+            grad = (2 * inverse) * d
+            grad -= (tau_b * inverse**2) * spread
+            finish("tau_b", tau_b, grad)
+        if "tau_c" in measures:
+            m = np.minimum((rows > 0).sum(axis=0), (cols > 0).sum(axis=0)).astype(float)
+            scale = np.where(m >= 2, _divide(m, (m - 1) * total**2), np.nan)
+            # d/dn_ij of S / n^2 is (2 d_ij - 2 S / n) / n^2: the second term matters for
+            # survey-weight variances only
+            finish("tau_c", S * scale, 2 * (d - S / total) * scale)
+    for key, flag in _bounds(n, rows, cols, P, Q).items():
+        if key in out:
+            found = out[key]
+            found["on_bound"] = flag
+            if flag.any():
+                found["estimate"] = np.where(flag, np.sign(found["estimate"]), found["estimate"])
+                found["std_error"] = np.where(flag, 0.0, found["std_error"])
+    return out
