@@ -28,8 +28,11 @@ from .measure_table import measure_label
 from .merge_sweep_kernel import (
     SWEEP_KERNEL_MEASURES,
     batch_view,
+    interval_positions,
     merge_matrices,
     merged_cells,
+    paired_change_variance,
+    rectangle_moments,
     sweep_measure_arrays,
 )
 from .ordinal_measures import ORDINAL_MEASURES, Sampling, delta_variance, ordinal_measure_arrays
@@ -347,6 +350,29 @@ class _Batch:
         records = self.sources.records
         return self.counts if records is None else self._merged(records.sum(axis=0))
 
+    @cached_property
+    def block_layout(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """Where each merged cell's block sits among all blocks a merge can make.
+
+        Returns ``(position, row_runs, col_runs)``: ``position`` (I', J', B) numbers each
+        merged cell's block (row run x column run, see
+        :func:`~rankfold.merge_sweep_kernel.interval_positions`) in a flattened
+        ``(runs_I, runs_J)`` array; ``row_runs`` (M_r, runs_I) and ``col_runs``
+        (M_c, runs_J) mark the runs each coding uses.
+        """
+        found = []
+        for merge in (self.row_merge, self.col_merge):
+            size = merge.shape[-1]
+            starts = merge.argmax(axis=-1)
+            runs = interval_positions(size)[starts, starts + merge.sum(axis=-1).astype(int)]
+            used = np.zeros((len(runs), size * (size + 1) // 2))
+            used[np.arange(len(runs))[:, None], runs] = 1.0
+            found.append((runs, used))
+        (row_runs, row_used), (col_runs, col_used) = found
+        position = (row_runs.T[:, None, :, None] * col_used.shape[1]
+                    + col_runs.T[None, :, None, :])
+        return position.reshape(*position.shape[:2], -1), row_used, col_used
+
     def level_cells(self) -> tuple[np.ndarray, np.ndarray | None]:
         """Each level's merged cells and squared weights, ``(B, K, I', J')`` (views)."""
         found = []
@@ -463,47 +489,66 @@ class _ChangeBase:
         cells = table.cells.astype(float)
         self.levels = cells.shape[0]
         self.counts = cells.reshape(-1, cells.shape[-1])  # (K * I, J)
-        self.sampling = Sampling()
-        pooled = Sampling()
+        self.pooled_counts = cells.sum(axis=0)
+        self.sampling = self.pooled = Sampling()
         if table.squared_weights is not None:
             records = float(np.asarray(table.records).sum())
             squared = np.asarray(table.squared_weights, dtype=float)
             self.sampling = Sampling(squared.reshape(self.counts.shape), records)
-            pooled = Sampling(squared.sum(axis=0), records)
-        found = ordinal_measure_arrays(cells.sum(axis=0), pooled, gradients=True)
+            self.pooled = Sampling(squared.sum(axis=0), records)
+        found = ordinal_measure_arrays(self.pooled_counts, self.pooled, gradients=True)
         if "polychoric" in measures:
-            found["polychoric"] = polychoric_arrays(cells.sum(axis=0), pooled)
+            found["polychoric"] = polychoric_arrays(self.pooled_counts, self.pooled)
         if PARTIAL in measures:
             weights = None if table.squared_weights is None else Sampling(
                 table.squared_weights, np.asarray(table.records, float).sum(axis=(-2, -1)))
             found[PARTIAL] = partial_gamma_arrays(cells, weights)
         self.found = found
+        self._moments: dict[str, tuple] = {}
 
-    def _whole(self, gradient: np.ndarray, batch: int) -> np.ndarray:
-        """A gradient of the pooled (..., I, J) or the levels' (..., K, I, J) cells, as
-        (..., K * I, J)."""
-        g = np.asarray(gradient, dtype=float)
-        if g.ndim == (3 if batch else 2):  # pooled: the same in every level
-            g = np.broadcast_to(g[..., None, :, :], (*g.shape[:-2], self.levels, *g.shape[-2:]))
-        return g.reshape(*g.shape[:-3], -1, g.shape[-1])
+    def moments(self, key: str) -> tuple[np.ndarray, np.ndarray, float]:
+        """The swept table's gradient over every block a merge can make (for
+        :func:`~rankfold.merge_sweep_kernel.paired_change_variance`), and ``sum n g0``."""
+        if key not in self._moments:
+            g0 = np.asarray(self.found[key]["gradient"], dtype=float)
+            squared = self.pooled.squared
+            weights = self.pooled_counts if squared is None else squared
+            mean, within = rectangle_moments(weights, g0)
+            self._moments[key] = mean.ravel(), within, float((self.pooled_counts * g0).sum())
+        return self._moments[key]
 
     def change(self, key: str, estimate: np.ndarray, gradient: np.ndarray | None,
-               row_groups: np.ndarray, col_groups: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+               batch: _Batch, groups: Callable[[], tuple[np.ndarray, np.ndarray]],
+               ) -> tuple[np.ndarray, np.ndarray]:
         """Each coding's change from the swept table and its paired delta-method error.
 
         The coding's gradient is carried back to the swept table's cells it sums
         (``A^T g``), less the swept table's own gradient; the variance is the one rule on
-        the swept table's counts (see :func:`rankfold.coding_change.coding_change`).
+        the swept table's counts (see :func:`rankfold.coding_change.coding_change`). A
+        gradient of the pooled table is the same in every level of a control variable, so
+        its variance over the levels' cells is that over the pooled cells; a gradient of the
+        levels' cells (partial gamma) runs over every cell of every level. ``groups()`` gives
+        the merged category of each original row and column of each coding.
         """
         base = self.found.get(key)
         if base is None or gradient is None:  # no gradient for this measure (yet): NaN
             return np.full(estimate.shape, np.nan), np.full(estimate.shape, np.nan)
         change = estimate - float(base["estimate"])
         g = np.asarray(gradient, dtype=float)
-        spread = (slice(None),) + (None,) * (g.ndim - 3)  # over the levels, if any
-        carried = np.take_along_axis(g, row_groups[spread + (slice(None), None)], axis=-2)
-        carried = np.take_along_axis(carried, col_groups[spread + (None, slice(None))], axis=-1)
-        difference = self._whole(carried, batch=True) - self._whole(base["gradient"], batch=False)
+        if g.ndim == 3:  # pooled, (B, I', J')
+            mean, within, base_linear = self.moments(key)
+            position, row_used, col_used = batch.block_layout
+            squared = self.pooled.squared
+            var = paired_change_variance(
+                np.moveaxis(g, 0, -1), batch.counts,
+                batch.counts if squared is None else batch.squared, mean[position],
+                (row_used @ within @ col_used.T).ravel(), base_linear, self.pooled.records)
+            return change, np.where(np.isnan(change), np.nan, np.sqrt(var))
+        row_groups, col_groups = groups()
+        carried = np.take_along_axis(g, row_groups[:, None, :, None], axis=-2)
+        carried = np.take_along_axis(carried, col_groups[:, None, None, :], axis=-1)
+        difference = carried.reshape(len(g), -1, carried.shape[-1]) - np.asarray(
+            base["gradient"], dtype=float).reshape(-1, carried.shape[-1])
         se = np.sqrt(delta_variance(self.counts, difference, self.sampling))
         return change, np.where(np.isnan(change), np.nan, se)
 
@@ -574,8 +619,9 @@ class _Columns:
             out[f"{key}_std_error"] = np.where(np.isnan(estimate), np.nan, found[key]["std_error"])
             if self.base is not None:
                 out[f"{key}_change"], out[f"{key}_change_se"] = self.base.change(
-                    key, estimate, found[key].get("gradient"),
-                    self.rows.group_of(batch.row_index), self.cols.group_of(batch.col_index))
+                    key, estimate, found[key].get("gradient"), batch,
+                    lambda: (self.rows.group_of(batch.row_index),
+                             self.cols.group_of(batch.col_index)))
         figures = _sparse_columns(batch_view(batch.observed))
         for key in ("share_expected_below_5", "min_expected", "zero_cells", "smallest_category"):
             out[key] = figures[key]

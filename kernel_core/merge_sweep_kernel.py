@@ -26,8 +26,11 @@ __all__ = [
     "SWEEP_KERNEL_MEASURES",
     "batch_view",
     "concordance_cells_first",
+    "interval_positions",
     "merge_matrices",
     "merged_cells",
+    "paired_change_variance",
+    "rectangle_moments",
     "sweep_measure_arrays",
 ]
 
@@ -306,3 +309,114 @@ def sweep_measure_arrays(
                 found["estimate"] = np.where(flag, np.sign(found["estimate"]), found["estimate"])
                 found["std_error"] = np.where(flag, 0.0, found["std_error"])
     return out
+
+
+
+def interval_positions(size: int) -> np.ndarray:
+    """Position of each run ``[start, stop)`` of neighbouring categories among all runs.
+
+    Returns
+    -------
+    ndarray of int, shape (size + 1, size + 1)
+        ``out[start, stop]`` numbers the ``size (size + 1) / 2`` runs with
+        ``start < stop``, by start then stop; -1 elsewhere.
+    """
+    out = np.full((size + 1, size + 1), -1)
+    starts, stops = np.triu_indices(size + 1, k=1)
+    out[starts, stops] = np.arange(len(starts))
+    return out
+
+
+def _run_masks(size: int) -> np.ndarray:
+    starts, stops = np.triu_indices(size + 1, k=1)
+    at = np.arange(size)
+    return ((at >= starts[:, None]) & (at < stops[:, None])).astype(float)  # (runs, size)
+
+
+def rectangle_moments(weights: np.ndarray, gradient: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Weighted mean and spread of a gradient over every block a merge can make.
+
+    Parameters
+    ----------
+    weights : ndarray, shape (I, J)
+        Cell weights of the variance rule (counts, or sums of squared sampling weights).
+    gradient : ndarray, shape (I, J)
+        The swept table's own gradient ``g0``.
+
+    Returns
+    -------
+    mean, within : ndarray, shape (I (I + 1) / 2, J (J + 1) / 2)
+        For each block of a row run and a column run (numbered as in
+        :func:`interval_positions`), ``mean = sum w g0 / sum w`` (0 for a block without
+        weight) and ``within = sum w (g0 - mean)^2`` (centred first, so no digits are lost).
+    """
+    w = np.asarray(weights, dtype=float)
+    g0 = np.asarray(gradient, dtype=float)
+    rows, cols = _run_masks(w.shape[0]), _run_masks(w.shape[1])
+    total = rows @ w @ cols.T
+    first = rows @ (w * g0) @ cols.T
+    mean = np.divide(first, total, out=np.zeros_like(first), where=total != 0)
+    inside = rows[:, None, :, None] * cols[None, :, None, :]  # (runs_I, runs_J, I, J)
+    within = (inside * w * (g0 - mean[:, :, None, None]) ** 2).sum(axis=(-2, -1))
+    return mean, within
+
+
+def paired_change_variance(
+    gradient: np.ndarray,
+    counts: np.ndarray,
+    weights: np.ndarray,
+    mean: np.ndarray,
+    within: np.ndarray,
+    base_linear: float,
+    records: float | None = None,
+) -> np.ndarray:
+    """Variance of each coding's change from the swept table, by the one variance rule.
+
+    The change of a measure from the swept table to a coding has the gradient
+    ``x_ij = g_(a(i) b(j)) - g0_ij`` over the swept table's cells (the coding's gradient
+    carried back to the cells each merged cell sums, less the table's own), and its variance
+    is :func:`rankfold.ordinal_measures.delta_variance` of ``x``:
+    ``sum n (x - xbar)^2`` for counts, ``sum s x^2 - (sum n x)^2 / m`` for sampling weights.
+    Within a merged cell (block) ``g_ab`` is constant, so with the block's weighted mean
+    ``mu_ab`` and spread ``W_ab`` of ``g0`` (:func:`rectangle_moments`, weights ``n`` or
+    ``s``), ``sum_block w (c - g0)^2 = w_ab (c - mu_ab)^2 + W_ab`` exactly, for any ``c``.
+    This needs only the merged tables, not a swept-size array per coding.
+
+    Parameters
+    ----------
+    gradient : ndarray, shape (I', J', B)
+        Each coding's gradient, cells first.
+    counts, weights : ndarray, shape (I', J', B)
+        Merged counts ``n_ab`` and the merged weights of the rule (``n_ab`` for counts,
+        ``s_ab`` for sampling weights).
+    mean : ndarray, shape (I', J', B)
+        ``mu`` of each merged cell's block.
+    within : ndarray, shape (B,)
+        ``sum_ab W_ab`` of each coding.
+    base_linear : float
+        ``sum n g0`` over the swept table.
+    records : float, optional
+        Data rows ``m`` for sampling weights; None for counts.
+
+    Returns
+    -------
+    ndarray, shape (B,)
+        The variance, floored at 0 against rounding.
+
+    References
+    ----------
+    Agresti, A. (2013). Categorical Data Analysis, 3rd ed., Wiley, sec. 16.1.
+    Woodruff, R. S. (1971). JASA 66, 411-414.
+    """
+    n = np.asarray(counts, dtype=float)
+    g = np.asarray(gradient, dtype=float)
+    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+        linear = (n * g).sum(axis=(0, 1)) - base_linear
+        if records is None:
+            centred = g - linear / n.sum(axis=(0, 1))
+            centred -= mean
+            var = (n * centred**2).sum(axis=(0, 1)) + within
+        else:
+            square = (weights * (g - mean) ** 2).sum(axis=(0, 1)) + within
+            var = square - linear**2 / records
+    return np.maximum(var, 0.0)
