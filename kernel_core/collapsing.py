@@ -595,9 +595,11 @@ class _Columns:
         for key in found:  # the changes take gradients batch first, (B, I', J')
             if gradients:
                 found[key]["gradient"] = batch_view(found[key]["gradient"])
-        if "spearman_rho" in self.measures:
-            found["spearman_rho"] = ordinal_measure_arrays(
-                batch_view(counts), pooled, gradients=gradients)["spearman_rho"]
+        others = [m for m in self.measures
+                  if m in ORDINAL_MEASURES and m not in SWEEP_KERNEL_MEASURES]
+        if others:  # spearman_rho: from the core's batched function, on a view of the batch
+            general = ordinal_measure_arrays(batch_view(counts), pooled, gradients=gradients)
+            found.update({m: general[m] for m in others})
         if PARTIAL in self.measures:
             cells, squared = batch.level_cells()
             if squared is not None:

@@ -97,7 +97,7 @@ def merged_cells(cells: np.ndarray, row_merge: np.ndarray, col_merge: np.ndarray
 
 def batch_view(x: np.ndarray) -> np.ndarray:
     """A cells-first array ``(I', J', B)`` seen as ``(B, I', J')``, without a copy."""
-    return np.moveaxis(x, (0, 1), (-2, -1))
+    return x.transpose((*range(2, x.ndim), 0, 1))
 
 
 def _running(x: np.ndarray, axis: int, reverse: bool = False) -> np.ndarray:
@@ -151,8 +151,7 @@ def concordance_cells_first(counts: np.ndarray) -> tuple[np.ndarray, np.ndarray]
 
 def _divide(num: np.ndarray, den: np.ndarray) -> np.ndarray:
     """``num / den``, NaN where ``den`` is 0."""
-    num, den = np.broadcast_arrays(np.asarray(num, dtype=float), np.asarray(den, dtype=float))
-    out = np.full(num.shape, np.nan)
+    out = np.full(np.broadcast_shapes(np.shape(num), np.shape(den)), np.nan)
     np.divide(num, den, out=out, where=den != 0)
     return out
 
