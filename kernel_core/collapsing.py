@@ -5,10 +5,10 @@ neighbours are kept; there are ``2**(I - 1)`` of them (the compositions of ``I``
 stored as a bitmask of kept boundaries, its *cuts*: bit ``k`` set means categories ``k`` and
 ``k + 1`` stay apart, so ``2**(I - 1) - 1`` is the axis as collected and ``0`` merges it all.
 
-The sweep evaluates every pair of row and column codings at once: collapsed tables come from the
-2-D prefix sums of the table, codings with the same collapsed shape form one batch, and the
-measures of a batch come from the core's batched
-:func:`~rankfold.ordinal_measures.ordinal_measure_arrays` in a single call.
+The sweep evaluates every pair of row and column codings at once: codings with the same
+collapsed shape form one batch, whose merged tables come from two matrix products and whose
+measures come from :mod:`rankfold.merge_sweep_kernel` (the formulas and the one variance rule
+of :mod:`rankfold.ordinal_measures`, with the batch kept last so that tiny tables run fast).
 """
 
 from __future__ import annotations
@@ -487,7 +487,6 @@ class _ChangeBase:
 
     def __init__(self, table: OrdinalTable, measures: tuple[str, ...]) -> None:
         cells = table.cells.astype(float)
-        self.levels = cells.shape[0]
         self.counts = cells.reshape(-1, cells.shape[-1])  # (K * I, J)
         self.pooled_counts = cells.sum(axis=0)
         self.sampling = self.pooled = Sampling()
@@ -592,8 +591,8 @@ class _Columns:
         found = sweep_measure_arrays(
             counts, [m for m in self.measures if m in SWEEP_KERNEL_MEASURES], batch.squared,
             records, gradients)
-        for key in found:  # the changes take gradients batch first, (B, I', J')
-            if gradients:
+        if gradients:  # the changes take gradients batch first, (B, I', J')
+            for key in found:
                 found[key]["gradient"] = batch_view(found[key]["gradient"])
         others = [m for m in self.measures
                   if m in ORDINAL_MEASURES and m not in SWEEP_KERNEL_MEASURES]
@@ -761,7 +760,7 @@ def sweep(
     An axis with ``I`` categories has ``2**(I - 1)`` codings (the compositions of ``I``;
     Stanley 2012, Enumerative Combinatorics I, 2nd ed., sec. 1.2), of which those with fewer
     than ``min_categories`` categories are left out; a 5 x 4 table gives 15 x 7 = 105 rows.
-    Collapsed tables come from the table's 2-D prefix sums (Crow 1984); the estimates and
+    Each merged table is ``R N C^T`` with 0/1 merge matrices ``R`` and ``C``; the estimates and
     delta-method standard errors are those of :meth:`OrdinalTable.measures` (sources in
     :func:`rankfold.ordinal_measures.ordinal_measure_arrays`; Agresti 2010, ch. 7).
 
@@ -775,7 +774,6 @@ def sweep(
     Agresti, A. (2010). Analysis of Ordinal Categorical Data, 2nd ed., Wiley, ch. 7.
     Cochran, W. G. (1954). Some methods for strengthening the common chi-square tests.
     Biometrics 10, 417-451.
-    Crow, F. C. (1984). Summed-area tables for texture mapping. Computer Graphics 18(3), 207-212.
 
     Examples
     --------

@@ -20,7 +20,7 @@ from collections.abc import Sequence
 
 import numpy as np
 
-from .ordinal_measures import Sampling, delta_variance
+from .ordinal_measures import Sampling, bound_flags, delta_variance
 
 __all__ = [
     "SWEEP_KERNEL_MEASURES",
@@ -36,14 +36,8 @@ __all__ = [
 
 #: The measures :func:`sweep_measure_arrays` computes (the others come from the core's
 #: :func:`~rankfold.ordinal_measures.ordinal_measure_arrays`).
-SWEEP_KERNEL_MEASURES = (
-    "gamma",
-    "somers_d_col_given_row",
-    "somers_d_row_given_col",
-    "somers_d_symmetric",
-    "tau_b",
-    "tau_c",
-)
+SWEEP_KERNEL_MEASURES = ("gamma", "somers_d_col_given_row", "somers_d_row_given_col",
+                         "somers_d_symmetric", "tau_b", "tau_c")
 
 
 def merge_matrices(groups: np.ndarray, count: int) -> np.ndarray:
@@ -156,39 +150,21 @@ def _divide(num: np.ndarray, den: np.ndarray) -> np.ndarray:
     return out
 
 
-def _equal_margin(margin: np.ndarray) -> np.ndarray:
-    """Whether the non-empty categories of a margin ``(k, B)`` hold equal totals (1e-12)."""
-    top = margin.max(axis=0)
-    low = np.where(margin > 0, margin, np.inf).min(axis=0)
-    return top - low <= 1e-12 * top
-
-
 def _bounds(counts, rows, cols, P, Q) -> dict[str, np.ndarray]:
-    """Where each measure sits on its bound, by the rules of
-    :func:`rankfold.ordinal_measures.bound_flags`.
+    """Where each measure sits on its bound, by :func:`rankfold.ordinal_measures.bound_flags`.
 
-    With non-negative cells and regions without units exactly 0, ``P = 0`` exactly when no
-    two units are concordant (likewise ``Q``), which is what ``bound_flags`` reads from the
-    0/1 table of non-empty cells.
+    Every bound needs ``P = 0`` or ``Q = 0`` with two non-empty categories on each variable
+    (see ``bound_flags``), so only those tables are passed to it. With non-negative cells and
+    regions without units exactly 0, ``P = 0`` exactly when no two units are concordant.
     """
-    filled = counts > 0
-    rows_used = (rows > 0).sum(axis=0)
-    cols_used = (cols > 0).sum(axis=0)
-    monotone = (rows_used >= 2) & (cols_used >= 2) & ((P == 0) | (Q == 0))
-    col_given_row = monotone & (filled.sum(axis=0) <= 1).all(axis=0)
-    row_given_col = monotone & (filled.sum(axis=1) <= 1).all(axis=0)
-    diagonal = col_given_row & row_given_col
-    tau_c = (col_given_row & (rows_used <= cols_used) & _equal_margin(rows)) | (
-        row_given_col & (cols_used <= rows_used) & _equal_margin(cols)
-    )
-    return {
-        "gamma": monotone,
-        "somers_d_col_given_row": col_given_row,
-        "somers_d_row_given_col": row_given_col,
-        "somers_d_symmetric": diagonal,
-        "tau_b": diagonal,
-        "tau_c": tau_c,
-    }
+    defined = ((rows > 0).sum(axis=0) >= 2) & ((cols > 0).sum(axis=0) >= 2)
+    candidate = defined & ((P == 0) | (Q == 0))
+    flags = {key: np.zeros(candidate.shape, dtype=bool) for key in SWEEP_KERNEL_MEASURES}
+    if candidate.any():
+        found = bound_flags(batch_view(counts[:, :, candidate]))
+        for key, flag in flags.items():
+            flag[candidate] = found[key]
+    return flags
 
 
 def sweep_measure_arrays(
@@ -259,14 +235,19 @@ def sweep_measure_arrays(
     w_c = (cols * col_rest).sum(axis=0)
     out: dict[str, dict[str, np.ndarray]] = {}
 
+    bounds = _bounds(n, rows, cols, P, Q)
+
     def finish(key, estimate, grad):
-        found = {
-            "estimate": estimate,
-            "std_error": np.sqrt(delta_variance(batch_view(n), batch_view(grad), sampling)),
+        # on its bound the estimate is +/-1 and the error 0 exactly (rounding leaves ~1e-17)
+        flag = bounds[key]
+        variance = delta_variance(batch_view(n), batch_view(grad), sampling)
+        out[key] = {
+            "estimate": np.where(flag, np.sign(estimate), estimate),
+            "std_error": np.where(flag, 0.0, np.sqrt(variance)),
+            "on_bound": flag,
         }
         if gradients:
-            found["gradient"] = grad
-        out[key] = found
+            out[key]["gradient"] = grad
 
     def ratio(key, den, den_grad):
         # (2 d_ij den - S den_grad) / den^2, with the per-table factors taken first
@@ -300,13 +281,6 @@ def sweep_measure_arrays(
             # d/dn_ij of S / n^2 is (2 d_ij - 2 S / n) / n^2: the second term matters for
             # survey-weight variances only
             finish("tau_c", S * scale, 2 * (d - S / total) * scale)
-    for key, flag in _bounds(n, rows, cols, P, Q).items():
-        if key in out:
-            found = out[key]
-            found["on_bound"] = flag
-            if flag.any():
-                found["estimate"] = np.where(flag, np.sign(found["estimate"]), found["estimate"])
-                found["std_error"] = np.where(flag, 0.0, found["std_error"])
     return out
 
 
