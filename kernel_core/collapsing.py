@@ -31,6 +31,7 @@ from .merge_sweep_kernel import (
     interval_positions,
     merge_matrices,
     merged_cells,
+    one_thread_product,
     paired_change_variance,
     rectangle_moments,
     sweep_measure_arrays,
@@ -541,7 +542,9 @@ class _ChangeBase:
             var = paired_change_variance(
                 np.moveaxis(g, 0, -1), batch.counts,
                 batch.counts if squared is None else batch.squared, mean[position],
-                (row_used @ within @ col_used.T).ravel(), base_linear, self.pooled.records)
+                one_thread_product(row_used, one_thread_product(within, col_used.T)).ravel(),
+                base_linear,
+                self.pooled.records)
             return change, np.where(np.isnan(change), np.nan, np.sqrt(var))
         row_groups, col_groups = groups()
         carried = np.take_along_axis(g, row_groups[:, None, :, None], axis=-2)
