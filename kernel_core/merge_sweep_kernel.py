@@ -121,18 +121,16 @@ def batch_view(x: np.ndarray) -> np.ndarray:
     return x.transpose((*range(2, x.ndim), 0, 1))
 
 
-def _running(x: np.ndarray, axis: int, reverse: bool = False) -> np.ndarray:
-    """Inclusive running sums along a cells axis (0 or 1), one slice at a time.
+def _accumulate(x: np.ndarray, axis: int, reverse: bool = False) -> None:
+    """Inclusive running sums along a cells axis (0 or 1), in place, one slice at a time.
 
     Summing slice after slice keeps the order of ``numpy.cumsum`` (so the same rounding) and
     runs over whole batches at once; ``numpy.cumsum`` on a leading axis is far slower.
     """
-    out = np.array(x, dtype=float, copy=True)
-    view = np.moveaxis(out, axis, 0)
+    view = np.moveaxis(x, axis, 0)
     steps = range(view.shape[0] - 2, -1, -1) if reverse else range(1, view.shape[0])
     for k in steps:
         view[k] += view[k + 1] if reverse else view[k - 1]
-    return out
 
 
 def concordance_cells_first(counts: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -148,7 +146,7 @@ def concordance_cells_first(counts: np.ndarray) -> tuple[np.ndarray, np.ndarray]
     concordant, discordant : ndarray, shape (I, J, ...)
         ``C_ij`` (units strictly above-left or strictly below-right of cell (i, j)) and
         ``D_ij`` (strictly above-right or below-left), as
-        :func:`rankfold.concordance.cell_concordance` gives them for batch-last arrays.
+        :func:`rankfold.concordance.cell_concordance` gives them for batch-first arrays.
 
     Notes
     -----
@@ -158,9 +156,13 @@ def concordance_cells_first(counts: np.ndarray) -> tuple[np.ndarray, np.ndarray]
     """
     n = np.asarray(counts, dtype=float)
     above = np.zeros_like(n)  # rows < i, columns <= j
-    above[1:] = _running(_running(n[:-1], 0), 1)
+    above[1:] = n[:-1]
+    _accumulate(above[1:], 0)
+    _accumulate(above[1:], 1)
     below = np.zeros_like(n)  # rows > i, columns >= j
-    below[:-1] = _running(_running(n[1:], 0, reverse=True), 1, reverse=True)
+    below[:-1] = n[1:]
+    _accumulate(below[:-1], 0, reverse=True)
+    _accumulate(below[:-1], 1, reverse=True)
     concordant = np.zeros_like(n)
     concordant[:, 1:] = above[:, :-1]
     concordant[:, :-1] += below[:, 1:]

@@ -28,6 +28,7 @@ from rankfold.collapsing import (
     rule_met,
     sweep_ranges,
 )
+from rankfold.merge_sweep_kernel import concordance_cells_first, one_thread_product
 from tables_for_tests import expand_table
 
 # An invented 5 x 4 table: ordered rows and columns, sparse corners, one empty cell pattern.
@@ -561,3 +562,29 @@ def test_ten_by_ten_sample_matches_scipy_and_the_published_gamma_error():
         se = 4 / (P + Q) ** 2 * np.sqrt((merged * (Q * conc - P * disc) ** 2).sum())
         assert row["gamma"] == pytest.approx((P - Q) / (P + Q), rel=1e-12)
         assert row["gamma_std_error"] == pytest.approx(se, rel=1e-10)
+
+
+def test_kernel_pair_counts_equal_brute_force_enumeration():
+    rng = np.random.default_rng(12)
+    for shape in ((2, 2), (3, 5), (6, 4)):
+        cells = rng.integers(0, 4, size=(*shape, 30)) * (rng.random((*shape, 30)) < 0.5)
+        weighted = cells * rng.uniform(0.3, 3.0, size=cells.shape)
+        for counts in (cells.astype(float), weighted):
+            conc, disc = concordance_cells_first(counts)
+            for b in range(counts.shape[-1]):
+                # Reference: every other cell visited in a loop (enumeration of cell pairs).
+                ref_conc, ref_disc = pairs_by_brute_force(counts[..., b])
+                np.testing.assert_allclose(conc[..., b], ref_conc, rtol=1e-14)
+                np.testing.assert_allclose(disc[..., b], ref_disc, rtol=1e-14)
+                # a region without units gives exactly 0, also for weighted totals
+                assert ((conc[..., b] == 0) == (ref_conc == 0)).all()
+                assert ((disc[..., b] == 0) == (ref_disc == 0)).all()
+
+
+@pytest.mark.parametrize("shape", [(5, 3, 4), (700, 10, 700), (3000, 10, 2)])
+def test_product_in_one_thread_slices_equals_numpy_matmul(shape):
+    rows, inner, cols = shape
+    rng = np.random.default_rng(rows)
+    a, b = rng.integers(0, 2, size=(rows, inner)).astype(float), rng.uniform(size=(inner, cols))
+    # Reference: numpy's matmul in one call (0/1 times numbers: the sums of the same terms).
+    np.testing.assert_allclose(one_thread_product(a, b), a @ b, rtol=1e-15)
