@@ -345,7 +345,6 @@ def sweep_measure_arrays(
     return out
 
 
-
 def interval_positions(size: int) -> np.ndarray:
     """Position of each run ``[start, stop)`` of neighbouring categories among all runs.
 
