@@ -5,17 +5,18 @@ neighbours are kept; there are ``2**(I - 1)`` of them (the compositions of ``I``
 stored as a bitmask of kept boundaries, its *cuts*: bit ``k`` set means categories ``k`` and
 ``k + 1`` stay apart, so ``2**(I - 1) - 1`` is the axis as collected and ``0`` merges it all.
 
-The sweep evaluates every pair of row and column codings at once: collapsed tables come from the
-2-D prefix sums of the table, codings with the same collapsed shape form one batch, and the
-measures of a batch come from the core's batched
-:func:`~rankfold.ordinal_measures.ordinal_measure_arrays` in a single call.
+The sweep evaluates every pair of row and column codings at once: codings with the same
+collapsed shape form one batch, whose merged tables come from two matrix products and whose
+measures come from :mod:`rankfold.merge_sweep_kernel` (the formulas and the one variance rule
+of :mod:`rankfold.ordinal_measures`, with the batch kept last so that tiny tables run fast).
 """
 
 from __future__ import annotations
 
 import math
 from collections.abc import Callable, Iterator, Mapping, Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 import pandas as pd
@@ -24,6 +25,17 @@ from .control_variable import partial_gamma_arrays
 from .cumulative_logit import cumulative_logit_arrays
 from .diagnostics import sparse_cell_figures
 from .measure_table import measure_label
+from .merge_sweep_kernel import (
+    SWEEP_KERNEL_MEASURES,
+    batch_view,
+    interval_positions,
+    merge_matrices,
+    merged_cells,
+    one_thread_product,
+    paired_change_variance,
+    rectangle_moments,
+    sweep_measure_arrays,
+)
 from .ordinal_measures import ORDINAL_MEASURES, Sampling, delta_variance, ordinal_measure_arrays
 from .ordinal_table import OrdinalTable
 from .polychoric import polychoric_arrays
@@ -305,45 +317,104 @@ def _plan(
     return rows, cols
 
 
-def _collapse(prefix: np.ndarray, row_bounds: np.ndarray, col_bounds: np.ndarray) -> np.ndarray:
-    """Collapsed tables ``(B, K, I', J')`` from the prefix sums ``(K, I + 1, J + 1)`` of K levels.
-
-    Cell ``(a, b)`` of a collapsed table is
-    ``S[r_(a+1), c_(b+1)] - S[r_a, c_(b+1)] - S[r_(a+1), c_b] + S[r_a, c_b]`` with ``S`` the
-    prefix sums padded by a leading row and column of zeros (a summed-area table, Crow 1984,
-    SIGGRAPH 84, Computer Graphics 18(3):207-212).
-    """
-    corners = np.moveaxis(prefix[:, row_bounds[:, :, None], col_bounds[:, None, :]], 0, 1)
-    return np.diff(np.diff(corners, axis=-2), axis=-1)
-
-
-def _prefix(cells: np.ndarray) -> np.ndarray:
-    out = np.zeros((*cells.shape[:-2], cells.shape[-2] + 1, cells.shape[-1] + 1), cells.dtype)
-    out[..., 1:, 1:] = cells.cumsum(axis=-2).cumsum(axis=-1)
-    return out
-
-
 @dataclass(frozen=True)
 class _Batch:
-    """Codings of one collapsed shape: positions in each axis's list and the collapsed tables.
+    """Codings of one collapsed shape ``(I', J')``: positions in each axis's list and the
+    merged tables, cells first (``(I', J', B)``, see :mod:`rankfold.merge_sweep_kernel`).
 
-    ``cells`` and ``squared`` keep the levels, ``(B, K, I', J')``; ``counts`` pools them.
-    ``observed`` is what sparseness is judged on: records per cell (pooled) when the cells
-    are sums of sampling weights, the counts otherwise.
+    ``counts`` pools the levels of a control variable and ``squared`` the sums of squared
+    sampling weights (None without them). ``observed`` is what sparseness is judged on:
+    records per cell when the cells are sums of sampling weights, the counts otherwise.
+    :meth:`level_cells` gives each level's merged tables, for partial gamma.
     """
 
     row_index: np.ndarray
     col_index: np.ndarray
+    row_merge: np.ndarray
+    col_merge: np.ndarray
+    sources: _Sources
+
+    def _merged(self, cells: np.ndarray) -> np.ndarray:
+        return merged_cells(cells, self.row_merge, self.col_merge)
+
+    @cached_property
+    def counts(self) -> np.ndarray:
+        return self._merged(self.sources.pooled)
+
+    @cached_property
+    def squared(self) -> np.ndarray | None:
+        squared = self.sources.squared
+        return None if squared is None else self._merged(squared.sum(axis=0))
+
+    @cached_property
+    def observed(self) -> np.ndarray:
+        records = self.sources.records
+        return self.counts if records is None else self._merged(records.sum(axis=0))
+
+    @cached_property
+    def block_layout(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """Where each merged cell's block sits among all blocks a merge can make.
+
+        Returns ``(position, row_runs, col_runs)``: ``position`` (I', J', B) numbers each
+        merged cell's block (row run x column run, see
+        :func:`~rankfold.merge_sweep_kernel.interval_positions`) in a flattened
+        ``(runs_I, runs_J)`` array; ``row_runs`` (M_r, runs_I) and ``col_runs``
+        (M_c, runs_J) mark the runs each coding uses.
+        """
+        found = []
+        for merge in (self.row_merge, self.col_merge):
+            size = merge.shape[-1]
+            starts = merge.argmax(axis=-1)
+            runs = interval_positions(size)[starts, starts + merge.sum(axis=-1).astype(int)]
+            used = np.zeros((len(runs), size * (size + 1) // 2))
+            used[np.arange(len(runs))[:, None], runs] = 1.0
+            found.append((runs, used))
+        (row_runs, row_used), (col_runs, col_used) = found
+        position = (row_runs.T[:, None, :, None] * col_used.shape[1]
+                    + col_runs.T[None, :, None, :])
+        return position.reshape(*position.shape[:2], -1), row_used, col_used
+
+    def level_cells(self) -> tuple[np.ndarray, np.ndarray | None]:
+        """Each level's merged cells and squared weights, ``(B, K, I', J')`` (views)."""
+        found = []
+        for source in (self.sources.cells, self.sources.squared):
+            if source is None:
+                found.append(None)
+                continue
+            levels = np.stack([self._merged(level) for level in source])  # (K, I', J', B)
+            found.append(np.moveaxis(levels, -1, 0))
+        return found[0], found[1]
+
+
+@dataclass(frozen=True)
+class _Sources:
+    """The swept table's cells as floats: per level ``(K, I, J)`` and pooled ``(I, J)``."""
+
     cells: np.ndarray
     squared: np.ndarray | None
-    records: np.ndarray | None = None
-    counts: np.ndarray = field(init=False)
-    observed: np.ndarray = field(init=False)
+    records: np.ndarray | None
+    pooled: np.ndarray
 
-    def __post_init__(self) -> None:
-        object.__setattr__(self, "counts", self.cells.sum(axis=1))
-        observed = self.counts if self.records is None else self.records.sum(axis=1)
-        object.__setattr__(self, "observed", observed)
+    @classmethod
+    def of(cls, table: OrdinalTable) -> _Sources:
+        cells = np.asarray(table.cells, dtype=float)
+        squared = (None if table.squared_weights is None
+                   else np.asarray(table.squared_weights, dtype=float))
+        records = None if squared is None else np.asarray(table.records, dtype=float)
+        return cls(cells, squared, records, cells.sum(axis=0))
+
+
+def _blocks(row_count: int, col_count: int, chunk_size: int) -> Iterator[tuple[slice, slice]]:
+    """Rectangles of (row coding, column coding) positions of at most ``chunk_size`` pairs,
+    in the order of the pairs flattened row by row."""
+    if col_count <= chunk_size:
+        step = chunk_size // col_count
+        for start in range(0, row_count, step):
+            yield slice(start, min(start + step, row_count)), slice(0, col_count)
+        return
+    for row in range(row_count):
+        for start in range(0, col_count, chunk_size):
+            yield slice(row, row + 1), slice(start, min(start + chunk_size, col_count))
 
 
 def _batches(
@@ -353,32 +424,26 @@ def _batches(
     chunk_size: int,
     progress: Progress | None,
 ) -> Iterator[_Batch]:
-    """Collapsed tables of every coding pair, by shape, at most ``chunk_size`` at a time."""
-    prefix = _prefix(table.cells)
-    squared = None if table.squared_weights is None else _prefix(table.squared_weights)
-    records = None if squared is None else _prefix(np.asarray(table.records, dtype=float))
+    """Merged tables of every coding pair, by shape, at most ``chunk_size`` at a time."""
+    sources = _Sources.of(table)
     total = len(rows.cuts) * len(cols.cuts)
     done = 0
     for r in np.unique(rows.groups):
         row_sel = np.flatnonzero(rows.groups == r)
-        row_bounds = rows.bounds(row_sel)
+        row_merge = merge_matrices(rows.group_of(row_sel), int(r))
         for c in np.unique(cols.groups):
             col_sel = np.flatnonzero(cols.groups == c)
-            col_bounds = cols.bounds(col_sel)
-            pairs = len(row_sel) * len(col_sel)
-            for start in range(0, pairs, chunk_size):
-                flat = np.arange(start, min(start + chunk_size, pairs))
-                ri, ci = flat // len(col_sel), flat % len(col_sel)
+            col_merge = merge_matrices(cols.group_of(col_sel), int(c))
+            for row_block, col_block in _blocks(len(row_sel), len(col_sel), chunk_size):
+                ri, ci = row_sel[row_block], col_sel[col_block]
                 yield _Batch(
-                    row_index=row_sel[ri],
-                    col_index=col_sel[ci],
-                    cells=_collapse(prefix, row_bounds[ri], col_bounds[ci]),
-                    squared=None if squared is None
-                    else _collapse(squared, row_bounds[ri], col_bounds[ci]),
-                    records=None if records is None
-                    else _collapse(records, row_bounds[ri], col_bounds[ci]),
+                    row_index=np.repeat(ri, len(ci)),
+                    col_index=np.tile(ci, len(ri)),
+                    row_merge=row_merge[row_block],
+                    col_merge=col_merge[col_block],
+                    sources=sources,
                 )
-                done += len(flat)
+                done += len(ri) * len(ci)
                 if progress is not None:
                     progress(done, total)
 
@@ -423,49 +488,69 @@ class _ChangeBase:
 
     def __init__(self, table: OrdinalTable, measures: tuple[str, ...]) -> None:
         cells = table.cells.astype(float)
-        self.levels = cells.shape[0]
         self.counts = cells.reshape(-1, cells.shape[-1])  # (K * I, J)
-        self.sampling = Sampling()
-        pooled = Sampling()
+        self.pooled_counts = cells.sum(axis=0)
+        self.sampling = self.pooled = Sampling()
         if table.squared_weights is not None:
             records = float(np.asarray(table.records).sum())
             squared = np.asarray(table.squared_weights, dtype=float)
             self.sampling = Sampling(squared.reshape(self.counts.shape), records)
-            pooled = Sampling(squared.sum(axis=0), records)
-        found = ordinal_measure_arrays(cells.sum(axis=0), pooled, gradients=True)
+            self.pooled = Sampling(squared.sum(axis=0), records)
+        found = ordinal_measure_arrays(self.pooled_counts, self.pooled, gradients=True)
         if "polychoric" in measures:
-            found["polychoric"] = polychoric_arrays(cells.sum(axis=0), pooled)
+            found["polychoric"] = polychoric_arrays(self.pooled_counts, self.pooled)
         if PARTIAL in measures:
             weights = None if table.squared_weights is None else Sampling(
                 table.squared_weights, np.asarray(table.records, float).sum(axis=(-2, -1)))
             found[PARTIAL] = partial_gamma_arrays(cells, weights)
         self.found = found
+        self._moments: dict[str, tuple] = {}
 
-    def _whole(self, gradient: np.ndarray, batch: int) -> np.ndarray:
-        """A gradient of the pooled (..., I, J) or the levels' (..., K, I, J) cells, as
-        (..., K * I, J)."""
-        g = np.asarray(gradient, dtype=float)
-        if g.ndim == (3 if batch else 2):  # pooled: the same in every level
-            g = np.broadcast_to(g[..., None, :, :], (*g.shape[:-2], self.levels, *g.shape[-2:]))
-        return g.reshape(*g.shape[:-3], -1, g.shape[-1])
+    def moments(self, key: str) -> tuple[np.ndarray, np.ndarray, float]:
+        """The swept table's gradient over every block a merge can make (for
+        :func:`~rankfold.merge_sweep_kernel.paired_change_variance`), and ``sum n g0``."""
+        if key not in self._moments:
+            g0 = np.asarray(self.found[key]["gradient"], dtype=float)
+            squared = self.pooled.squared
+            weights = self.pooled_counts if squared is None else squared
+            mean, within = rectangle_moments(weights, g0)
+            self._moments[key] = mean.ravel(), within, float((self.pooled_counts * g0).sum())
+        return self._moments[key]
 
     def change(self, key: str, estimate: np.ndarray, gradient: np.ndarray | None,
-               row_groups: np.ndarray, col_groups: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+               batch: _Batch, groups: Callable[[], tuple[np.ndarray, np.ndarray]],
+               ) -> tuple[np.ndarray, np.ndarray]:
         """Each coding's change from the swept table and its paired delta-method error.
 
         The coding's gradient is carried back to the swept table's cells it sums
         (``A^T g``), less the swept table's own gradient; the variance is the one rule on
-        the swept table's counts (see :func:`rankfold.coding_change.coding_change`).
+        the swept table's counts (see :func:`rankfold.coding_change.coding_change`). A
+        gradient of the pooled table is the same in every level of a control variable, so
+        its variance over the levels' cells is that over the pooled cells; a gradient of the
+        levels' cells (partial gamma) runs over every cell of every level. ``groups()`` gives
+        the merged category of each original row and column of each coding.
         """
         base = self.found.get(key)
         if base is None or gradient is None:  # no gradient for this measure (yet): NaN
             return np.full(estimate.shape, np.nan), np.full(estimate.shape, np.nan)
         change = estimate - float(base["estimate"])
         g = np.asarray(gradient, dtype=float)
-        spread = (slice(None),) + (None,) * (g.ndim - 3)  # over the levels, if any
-        carried = np.take_along_axis(g, row_groups[spread + (slice(None), None)], axis=-2)
-        carried = np.take_along_axis(carried, col_groups[spread + (None, slice(None))], axis=-1)
-        difference = self._whole(carried, batch=True) - self._whole(base["gradient"], batch=False)
+        if g.ndim == 3:  # pooled, (B, I', J')
+            mean, within, base_linear = self.moments(key)
+            position, row_used, col_used = batch.block_layout
+            squared = self.pooled.squared
+            var = paired_change_variance(
+                np.moveaxis(g, 0, -1), batch.counts,
+                batch.counts if squared is None else batch.squared, mean[position],
+                one_thread_product(row_used, one_thread_product(within, col_used.T)).ravel(),
+                base_linear,
+                self.pooled.records)
+            return change, np.where(np.isnan(change), np.nan, np.sqrt(var))
+        row_groups, col_groups = groups()
+        carried = np.take_along_axis(g, row_groups[:, None, :, None], axis=-2)
+        carried = np.take_along_axis(carried, col_groups[:, None, None, :], axis=-1)
+        difference = carried.reshape(len(g), -1, carried.shape[-1]) - np.asarray(
+            base["gradient"], dtype=float).reshape(-1, carried.shape[-1])
         se = np.sqrt(delta_variance(self.counts, difference, self.sampling))
         return change, np.where(np.isnan(change), np.nan, se)
 
@@ -498,32 +583,50 @@ class _Columns:
             "row_index": batch.row_index,
             "col_index": batch.col_index,
         }
+        counts = batch.counts  # cells first, (I', J', B)
         if batch.squared is None:
             pooled = controlled = Sampling()
+            records = None
         else:
-            pooled = Sampling(batch.squared.sum(axis=1), self.level_records.sum())
-            controlled = Sampling(batch.squared, self.level_records)
-        counts = batch.counts
-        found = ordinal_measure_arrays(counts, pooled, gradients=self.base is not None)
+            records = self.level_records.sum()
+            pooled = Sampling(batch_view(batch.squared), records)
+        gradients = self.base is not None
+        found = sweep_measure_arrays(
+            counts, [m for m in self.measures if m in SWEEP_KERNEL_MEASURES], batch.squared,
+            records, gradients)
+        if gradients:  # the changes take gradients batch first, (B, I', J')
+            for key in found:
+                found[key]["gradient"] = batch_view(found[key]["gradient"])
+        others = [m for m in self.measures
+                  if m in ORDINAL_MEASURES and m not in SWEEP_KERNEL_MEASURES]
+        if others:  # spearman_rho: from the core's batched function, on a view of the batch
+            general = ordinal_measure_arrays(batch_view(counts), pooled, gradients=gradients)
+            found.update({m: general[m] for m in others})
         if PARTIAL in self.measures:
-            found[PARTIAL] = partial_gamma_arrays(batch.cells, controlled)
+            cells, squared = batch.level_cells()
+            if squared is not None:
+                controlled = Sampling(squared, self.level_records)
+            found[PARTIAL] = partial_gamma_arrays(cells, controlled)
         if "polychoric" in self.measures:
-            found["polychoric"] = polychoric_arrays(counts, pooled)
+            found["polychoric"] = polychoric_arrays(np.ascontiguousarray(batch_view(counts)),
+                                                    pooled)
         if "cumulative_logit" in self.measures:
-            found["cumulative_logit"] = cumulative_logit_arrays(counts, sampling=pooled)
+            found["cumulative_logit"] = cumulative_logit_arrays(
+                np.ascontiguousarray(batch_view(counts)), sampling=pooled)
         # As in measures(): with one non-empty category on either variable, every measure is
         # undefined (P - Q is 0 by construction, not by the data).
-        busy = np.minimum((counts.sum(axis=-1) > 0).sum(axis=-1),
-                          (counts.sum(axis=-2) > 0).sum(axis=-1)) >= 2
+        busy = np.minimum((counts.sum(axis=1) > 0).sum(axis=0),
+                          (counts.sum(axis=0) > 0).sum(axis=0)) >= 2
         for key in self.measures:
             estimate = np.where(busy, found[key]["estimate"], np.nan)
             out[key] = estimate
             out[f"{key}_std_error"] = np.where(np.isnan(estimate), np.nan, found[key]["std_error"])
             if self.base is not None:
                 out[f"{key}_change"], out[f"{key}_change_se"] = self.base.change(
-                    key, estimate, found[key].get("gradient"),
-                    self.rows.group_of(batch.row_index), self.cols.group_of(batch.col_index))
-        figures = _sparse_columns(batch.observed)
+                    key, estimate, found[key].get("gradient"), batch,
+                    lambda: (self.rows.group_of(batch.row_index),
+                             self.cols.group_of(batch.col_index)))
+        figures = _sparse_columns(batch_view(batch.observed))
         for key in ("share_expected_below_5", "min_expected", "zero_cells", "smallest_category"):
             out[key] = figures[key]
         return out
@@ -660,7 +763,7 @@ def sweep(
     An axis with ``I`` categories has ``2**(I - 1)`` codings (the compositions of ``I``;
     Stanley 2012, Enumerative Combinatorics I, 2nd ed., sec. 1.2), of which those with fewer
     than ``min_categories`` categories are left out; a 5 x 4 table gives 15 x 7 = 105 rows.
-    Collapsed tables come from the table's 2-D prefix sums (Crow 1984); the estimates and
+    Each merged table is ``R N C^T`` with 0/1 merge matrices ``R`` and ``C``; the estimates and
     delta-method standard errors are those of :meth:`OrdinalTable.measures` (sources in
     :func:`rankfold.ordinal_measures.ordinal_measure_arrays`; Agresti 2010, ch. 7).
 
@@ -674,7 +777,6 @@ def sweep(
     Agresti, A. (2010). Analysis of Ordinal Categorical Data, 2nd ed., Wiley, ch. 7.
     Cochran, W. G. (1954). Some methods for strengthening the common chi-square tests.
     Biometrics 10, 417-451.
-    Crow, F. C. (1984). Summed-area tables for texture mapping. Computer Graphics 18(3), 207-212.
 
     Examples
     --------
@@ -939,7 +1041,7 @@ def suggest_collapsing(
     rows, cols = _plan(table, axes, min_categories, max_schemes, DEFAULT_CHUNK_SIZE)
     balance, row_index, col_index = [], [], []
     for batch in _batches(table, rows, cols, DEFAULT_CHUNK_SIZE, None):
-        figures = _sparse_columns(batch.observed)
+        figures = _sparse_columns(batch_view(batch.observed))
         meets = rule_met(figures, rule, threshold)
         balance.append(figures["category_square_sum"][meets])
         row_index.append(batch.row_index[meets])

@@ -28,6 +28,7 @@ from rankfold.collapsing import (
     rule_met,
     sweep_ranges,
 )
+from rankfold.merge_sweep_kernel import concordance_cells_first, one_thread_product
 from tables_for_tests import expand_table
 
 # An invented 5 x 4 table: ordered rows and columns, sparse corners, one empty cell pattern.
@@ -312,6 +313,7 @@ def test_suggestion_never_computes_a_measure(monkeypatch):
         raise AssertionError("suggest_collapsing looked at a measure")
 
     monkeypatch.setattr(module, "ordinal_measure_arrays", refuse)
+    monkeypatch.setattr(module, "sweep_measure_arrays", refuse)
     monkeypatch.setattr(module, "partial_gamma_arrays", refuse)
     assert rankfold.suggest_collapsing(rankfold.table_from_counts(sparse_table())).table is not None
 
@@ -446,3 +448,143 @@ def test_sampling_weights_judge_sparseness_by_records():
     chosen_survey = rankfold.suggest_collapsing(survey)
     assert (chosen_survey.row_cuts, chosen_survey.col_cuts) == (
         chosen_plain.row_cuts, chosen_plain.col_cuts)
+
+
+# ------------------------------------------------- the batched kernel against one coding at a time
+ALL_MEASURES = rankfold.ordinal_measures.ORDINAL_MEASURES
+
+
+def gappy_table() -> np.ndarray:
+    """An invented 7 x 6 table with empty rows and columns (one of each last) and thin
+    corners, so that some codings have empty categories and some leave a single non-empty
+    one (merging all but the last row)."""
+    rng = np.random.default_rng(23)
+    grid = np.outer(np.linspace(-1, 1, 7), np.linspace(-1, 1, 6))
+    counts = rng.poisson(3 * np.exp(1.2 * grid))
+    counts[[2, 6]] = 0
+    counts[:, [3, 5]] = 0
+    counts[0, :] = [4, 0, 0, 0, 0, 0]  # a first row that is concordant with everything below
+    return counts
+
+
+def sampled_codings(frame: pd.DataFrame, size: int, seed: int) -> list[int]:
+    """A random sample of rows, plus every row with an undefined or bounded gamma (if any)."""
+    rng = np.random.default_rng(seed)
+    special = np.flatnonzero(frame["gamma"].isna().to_numpy()
+                             | (frame["gamma"].abs() == 1).to_numpy())
+    picks = rng.choice(len(frame), size=size, replace=False)
+    return sorted(set(picks.tolist()) | set(special[:: max(1, len(special) // 20)].tolist()))
+
+
+def close(value: float, reference: float) -> bool:
+    if np.isnan(reference):
+        return bool(np.isnan(value))
+    return value == pytest.approx(reference, rel=1e-12, abs=1e-14)
+
+
+def test_every_column_equals_the_one_coding_path_on_a_sample():
+    table = rankfold.table_from_counts(gappy_table())
+    frame = rankfold.sweep(table, measures=ALL_MEASURES, changes=True)
+    picked = sampled_codings(frame, 80, seed=3)
+    assert frame.loc[picked, "gamma"].isna().any()  # undefined codings are in the sample
+    assert (frame.loc[picked, "gamma"].abs() == 1).any()  # and codings on gamma's bound
+    for k in picked:
+        row = frame.iloc[k]
+        coded = rankfold.apply_coding(table, int(row["row_cuts"]), int(row["col_cuts"]))
+        # References: the core's one-table path on the recoded table (measures(), and the
+        # paired change of coding_change), and scipy's expected counts for the sparse figures.
+        expected = coded.measures()
+        paired = rankfold.coding_change.coding_change(table, coded)
+        for key in ALL_MEASURES:
+            estimate = expected.loc[key, "estimate"]
+            assert close(row[key], estimate), (k, key)
+            assert close(row[f"{key}_std_error"], expected.loc[key, "std_error"]), (k, key)
+            assert close(row[f"{key}_change"], paired.loc[key, "change"]), (k, key)
+            assert close(row[f"{key}_change_se"], paired.loc[key, "change_se"]), (k, key)
+            if np.isnan(estimate):  # undefined: NaN here, the reason in measures()' note
+                assert expected.loc[key, "note"]
+        hand = sparse_by_hand(coded.counts.to_numpy())
+        for name in ("share_expected_below_5", "min_expected", "zero_cells", "smallest_category"):
+            assert close(row[name], hand[name]), (k, name)
+
+
+def test_sampling_weights_on_a_sample_equal_the_one_coding_path():
+    data = invented_survey(seed=4, size=300)
+    data["band"] = (data["exposure"] * 2 + (data["w"] > 1.7)).astype(int)  # 8 bands
+    table = rankfold.table(data, "band", "outcome", weight="w", weight_kind="sampling")
+    frame = rankfold.sweep(table, changes=True)
+    for k in sampled_codings(frame, 40, seed=5):
+        row = frame.iloc[k]
+        coded = rankfold.apply_coding(table, int(row["row_cuts"]), int(row["col_cuts"]))
+        # Reference: the core's one-table path (Taylor-linearised errors, Woodruff 1971).
+        expected = coded.measures()
+        paired = rankfold.coding_change.coding_change(table, coded)
+        for key in MEASURES:
+            assert close(row[key], expected.loc[key, "estimate"]), (k, key)
+            assert close(row[f"{key}_std_error"], expected.loc[key, "std_error"]), (k, key)
+            assert close(row[f"{key}_change_se"], paired.loc[key, "change_se"]), (k, key)
+
+
+def pairs_by_brute_force(counts: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """C_ij and D_ij by looping over every other cell (no running sums)."""
+    rows, cols = counts.shape
+    conc, disc = np.zeros(counts.shape), np.zeros(counts.shape)
+    for i, j, a, b in itertools.product(range(rows), range(cols), range(rows), range(cols)):
+        sign = np.sign(a - i) * np.sign(b - j)
+        if sign > 0:
+            conc[i, j] += counts[a, b]
+        elif sign < 0:
+            disc[i, j] += counts[a, b]
+    return conc, disc
+
+
+def test_ten_by_ten_sample_matches_scipy_and_the_published_gamma_error():
+    rng = np.random.default_rng(8)
+    grid = np.outer(np.linspace(-1, 1, 10), np.linspace(-1, 1, 10))
+    counts = rng.poisson(rng.uniform(1, 12, size=(10, 10)) * np.exp(0.7 * grid))
+    frame = rankfold.sweep(rankfold.table_from_counts(counts))
+    assert len(frame) == 511 * 511  # 2**9 - 1 codings of each axis keep 2 or more categories
+    for k in rng.choice(len(frame), size=25, replace=False):
+        row = frame.iloc[k]
+        starts = [[0] + [b + 1 for b in range(9) if int(row[f"{axis}_cuts"]) >> b & 1]
+                  for axis in ("row", "col")]
+        merged = np.add.reduceat(np.add.reduceat(counts, starts[0], axis=0), starts[1], axis=1)
+        # Reference: scipy.stats.somersd on the table merged by numpy's reduceat.
+        assert row["somers_d_col_given_row"] == pytest.approx(
+            stats.somersd(merged).statistic, abs=1e-12)
+        assert row["somers_d_row_given_col"] == pytest.approx(
+            stats.somersd(merged.T).statistic, abs=1e-12)
+        # Reference: the closed form of gamma's delta-method error, 4/(P+Q)^2 *
+        # sqrt(sum n (Q C - P D)^2) (Goodman & Kruskal 1972, JASA 67:415; Agresti 2010,
+        # ch. 7), with C and D counted cell by cell.
+        conc, disc = pairs_by_brute_force(merged)
+        P, Q = (merged * conc).sum(), (merged * disc).sum()
+        se = 4 / (P + Q) ** 2 * np.sqrt((merged * (Q * conc - P * disc) ** 2).sum())
+        assert row["gamma"] == pytest.approx((P - Q) / (P + Q), rel=1e-12)
+        assert row["gamma_std_error"] == pytest.approx(se, rel=1e-10)
+
+
+def test_kernel_pair_counts_equal_brute_force_enumeration():
+    rng = np.random.default_rng(12)
+    for shape in ((2, 2), (3, 5), (6, 4)):
+        cells = rng.integers(0, 4, size=(*shape, 30)) * (rng.random((*shape, 30)) < 0.5)
+        weighted = cells * rng.uniform(0.3, 3.0, size=cells.shape)
+        for counts in (cells.astype(float), weighted):
+            conc, disc = concordance_cells_first(counts)
+            for b in range(counts.shape[-1]):
+                # Reference: every other cell visited in a loop (enumeration of cell pairs).
+                ref_conc, ref_disc = pairs_by_brute_force(counts[..., b])
+                np.testing.assert_allclose(conc[..., b], ref_conc, rtol=1e-14)
+                np.testing.assert_allclose(disc[..., b], ref_disc, rtol=1e-14)
+                # a region without units gives exactly 0, also for weighted totals
+                assert ((conc[..., b] == 0) == (ref_conc == 0)).all()
+                assert ((disc[..., b] == 0) == (ref_disc == 0)).all()
+
+
+@pytest.mark.parametrize("shape", [(5, 3, 4), (700, 10, 700), (3000, 10, 2)])
+def test_product_in_one_thread_slices_equals_numpy_matmul(shape):
+    rows, inner, cols = shape
+    rng = np.random.default_rng(rows)
+    a, b = rng.integers(0, 2, size=(rows, inner)).astype(float), rng.uniform(size=(inner, cols))
+    # Reference: numpy's matmul in one call (0/1 times numbers: the sums of the same terms).
+    np.testing.assert_allclose(one_thread_product(a, b), a @ b, rtol=1e-15)
