@@ -94,6 +94,49 @@ class RawCodes:
         return len(self.uniques) + 1
 
 
+def _value_range(values: np.ndarray) -> tuple[int, int]:
+    """The smallest and largest value, both taken from each block while it is in the cache
+    (one read of a long array instead of two)."""
+    if values.nbytes <= 1 << 22:
+        return int(values.min()), int(values.max())
+    step = 1 << 16
+    lows, highs = zip(*((values[k:k + step].min(), values[k:k + step].max())
+                        for k in range(0, len(values), step)), strict=True)
+    return int(min(lows)), int(max(highs))
+
+
+def _held_by_arrow(series: pd.Series) -> bool:
+    """Text stored by pyarrow: pandas' ``str`` (pandas 3 with pyarrow), ``string[pyarrow]``,
+    or an ``ArrowDtype`` of strings."""
+    dtype = series.dtype
+    if isinstance(dtype, pd.StringDtype):
+        return dtype.storage == "pyarrow"
+    return isinstance(dtype, pd.ArrowDtype) and dtype.kind in "OSU"  # string, large_string
+
+
+def _arrow_text_codes(series: pd.Series, kind: str | None) -> RawCodes:
+    """pyarrow's dictionary encoding: each string hashed once in pyarrow, one dictionary for
+    all chunks (its entries are the values found, in the order found; missing values -1)."""
+    import pyarrow.compute as pc  # present: the column is stored by it
+
+    encoded = series.array.__arrow_array__().dictionary_encode()  # the Arrow protocol: no copy
+    chunks = encoded.chunks
+    dictionary = chunks[-1].dictionary if chunks else None
+    if dictionary is None or any(not c.dictionary.equals(dictionary) for c in chunks[:-1]):
+        codes, uniques = pd.factorize(series, use_na_sentinel=True)
+        return RawCodes(np.asarray(codes), 1, list(uniques), kind)
+    indices = pc.fill_null(pc.cast(encoded.combine_chunks().indices if len(chunks) > 1
+                                   else chunks[0].indices, _arrow_index_type(len(dictionary))),
+                           -1)
+    return RawCodes(indices.to_numpy(zero_copy_only=False), 1, dictionary.to_pylist(), kind)
+
+
+def _arrow_index_type(distinct: int) -> object:
+    import pyarrow as pa
+
+    return pa.int8() if distinct < 127 else pa.int16() if distinct < 32767 else pa.int32()
+
+
 def raw_codes(series: pd.Series) -> RawCodes:
     """Code a column by its type: a Categorical by its own codes, booleans as a uint8 view,
     integers of a narrow range by their offset from the smallest, text through a Categorical
@@ -107,9 +150,11 @@ def raw_codes(series: pd.Series) -> RawCodes:
         return RawCodes(series.to_numpy().view(np.uint8), 1, [False, True], kind)
     if isinstance(dtype, np.dtype) and dtype.kind in "iu" and dtype != np.uint64 and len(series):
         values = series.to_numpy()
-        low, high = int(values.min()), int(values.max())
+        low, high = _value_range(values)
         if high - low < OFFSET_SPAN and -(1 << 31) < low and high < (1 << 31):
             return RawCodes(values, 1 - low, list(range(low, high + 1)), kind)
+    if _held_by_arrow(series):
+        return _arrow_text_codes(series, kind)
     if pd.api.types.is_object_dtype(dtype) or pd.api.types.is_string_dtype(dtype):
         try:  # compact codes (int8 for few values); the categories are the values found
             text = pd.Categorical(series)
@@ -234,7 +279,7 @@ def code_column(
     CodedColumn
     """
     raw = raw_codes(series)
-    found = _count_cells([raw], [1], raw.size)
+    found = _count_cells([raw], [1], raw.size).records
     rule = column_rule(raw, found, name, axis, order, exclude, dropna, nominal)
     lookup = rule.lookup.astype(np.min_scalar_type(-len(rule.labels) - 1))
     codes = np.empty(len(series), dtype=lookup.dtype)
@@ -246,76 +291,122 @@ def code_column(
 
 # --- counting: raw code combinations, a block of records at a time ------------------------
 
-#: Records per block: numpy widens what it counts to int64, and blocks keep that copy small.
-BLOCK = 1 << 18
+#: Records per block: each block's cell codes and weights stay in the processor's cache while
+#: every sum of that block is taken from them.
+BLOCK = 1 << 16
 
 
 def _chunks(length: int) -> list[slice]:
     return [slice(start, start + BLOCK) for start in range(0, length, BLOCK)]
 
 
-def _raw_cells(columns: Sequence[RawCodes], strides: Sequence[int], part: slice) -> np.ndarray:
-    """Each record's raw code combination ``sum (values + offset) * stride``, computed in the
-    narrowest signed type that holds every combination and the values as they are: the sum
-    lies in ``0 .. size - 1``, so wrapping around on the way does not change it."""
-    size = int(np.prod([column.size for column in columns]))
-    widest = max(column.values.dtype.itemsize for column in columns)
-    narrow = np.dtype(f"i{max(np.min_scalar_type(-size).itemsize, widest)}")  # no casting
-    first, *others = zip(columns, strides, strict=True)
-    flat = np.multiply(first[0].values[part], first[1], dtype=narrow, casting="unsafe")
-    shift = first[0].offset * first[1]
-    for column, stride in others:
-        if stride == 1:
-            np.add(flat, column.values[part], out=flat, casting="unsafe")
-        else:
-            np.add(flat, np.multiply(column.values[part], stride, dtype=narrow, casting="unsafe"),
-                   out=flat, casting="unsafe")
-        shift += column.offset * stride
-    bits = 8 * narrow.itemsize
-    shift = (shift + (1 << (bits - 1))) % (1 << bits) - (1 << (bits - 1))  # the same, wrapped
-    np.add(flat, shift, out=flat, casting="unsafe")
-    return flat
+class RawCells:
+    """Each record's raw code combination ``sum (values + offset) * stride``.
+
+    It is computed in the narrowest signed type that holds every combination and the values
+    as they are (the sum lies in ``0 .. size - 1``, so wrapping around on the way does not
+    change it), in a buffer made once, then copied into ``intp``, the type ``np.bincount``
+    counts without a copy of its own.
+    """
+
+    def __init__(self, columns: Sequence[RawCodes], strides: Sequence[int], length: int):
+        size = int(np.prod([column.size for column in columns]))
+        widest = max(column.values.dtype.itemsize for column in columns)
+        self.narrow = np.dtype(f"i{max(np.min_scalar_type(-size).itemsize, widest)}")
+        self.terms = [(column.values, stride) for column, stride in zip(columns, strides,
+                                                                         strict=True)]
+        shift = sum(column.offset * stride for column, stride in zip(columns, strides,
+                                                                      strict=True))
+        bits = 8 * self.narrow.itemsize
+        self.shift = (shift + (1 << (bits - 1))) % (1 << bits) - (1 << (bits - 1))  # wrapped
+        self.buffer = np.empty(length, dtype=self.narrow)
+        self.codes = self.buffer if self.narrow == np.intp else np.empty(length, dtype=np.intp)
+
+    def __call__(self, part: slice) -> np.ndarray:
+        """The combinations of the records in ``part`` (at most ``length`` of them)."""
+        (first, stride), *others = self.terms
+        values = first[part]
+        flat = self.buffer[: len(values)]
+        np.multiply(values, stride, out=flat, dtype=self.narrow, casting="unsafe")
+        for values, stride in others:
+            if stride == 1:
+                np.add(flat, values[part], out=flat, casting="unsafe")
+            else:
+                np.add(flat, np.multiply(values[part], stride, dtype=self.narrow,
+                                         casting="unsafe"), out=flat, casting="unsafe")
+        np.add(flat, self.shift, out=flat, casting="unsafe")
+        if flat.dtype == np.intp:
+            return flat
+        codes = self.codes[: len(flat)]
+        codes[...] = flat
+        return codes
+
+
+@dataclass(frozen=True)
+class CellSums:
+    """Sums per raw code combination (flat arrays of the combinations' number).
+
+    ``records``: records (None when not counted); ``weight`` and ``squares``: sums of the
+    weights and of their squares (None without weights, or without ``squares``);
+    ``lowest``: the smallest weight (NaN if any is missing; None without weights).
+    """
+
+    records: np.ndarray | None
+    weight: np.ndarray | None = None
+    squares: np.ndarray | None = None
+    lowest: float | None = None
 
 
 def _count_cells(columns: Sequence[RawCodes], strides: Sequence[int], size: int,
                  weights: np.ndarray | None = None, squares: bool = False,
-                 fractional: bool = False) -> np.ndarray:
-    """Records per raw code combination; with ``weights`` also the sums of the weights, of
-    their squares (if ``squares``) and the records whose weight is not whole (if
-    ``fractional``): an array of shape (size,) or (4, size)."""
-    records = np.zeros(size, dtype=np.int64)
-    sums = np.zeros((3, size)) if weights is not None else None
-    scratch = np.empty(BLOCK) if fractional else None
-    for part in _chunks(len(columns[0].values)):
-        flat = _raw_cells(columns, strides, part)
-        records += np.bincount(flat, minlength=size)
-        if sums is None:
+                 records: bool = True) -> CellSums:
+    """Records per raw code combination and, with ``weights``, the sums of the weights (and of
+    their squares if ``squares``) and the smallest weight, in one pass over blocks of
+    :data:`BLOCK` records: the block's codes and weights are read from memory once, and each
+    sum is a ``np.bincount`` of them while they are in the cache."""
+    length = len(columns[0].values)
+    counted = np.zeros(size, dtype=np.int64) if records else None
+    total = np.zeros(size) if weights is not None else None
+    square_sums = np.zeros(size) if squares else None
+    lowest = []
+    raw_cells = RawCells(columns, strides, min(BLOCK, length))
+    converted, squared = (np.empty(min(BLOCK, length) if weights is not None else 0)
+                          for _ in range(2))
+    for part in _chunks(length):
+        flat = raw_cells(part)
+        if counted is not None:
+            counted += np.bincount(flat, minlength=size)
+        if weights is None:
             continue
         w = weights[part]
-        sums[0] += np.bincount(flat, w, minlength=size)
-        if squares:
-            sums[1] += np.bincount(flat, w * w, minlength=size)
-        if fractional:
-            whole = np.floor(w, out=scratch[: len(w)]) == w
-            if not whole.all():
-                sums[2] += np.bincount(flat[~whole], minlength=size)
-    return records if sums is None else np.vstack([records, sums])
+        if w.dtype != np.float64:  # other numbers are converted a block at a time
+            np.copyto(converted[: len(w)], w)
+            w = converted[: len(w)]
+        lowest.append(np.min(w))
+        total += np.bincount(flat, w, minlength=size)
+        if square_sums is not None:
+            square_sums += np.bincount(flat, np.multiply(w, w, out=squared[: len(w)]),
+                                       minlength=size)
+    if weights is None:
+        return CellSums(counted)
+    return CellSums(counted, total, square_sums, float(np.min(lowest)) if lowest else np.inf)
 
 
 def _count_lines(columns: Sequence[RawCodes], strides: Sequence[int], size: int,
-                 tally: Tally) -> np.ndarray:
+                 tally: Tally) -> CellSums:
     """The same sums from a group-by result: each line stands for its records."""
-    flat = _raw_cells(columns, strides, slice(None))
+    flat = RawCells(columns, strides, len(tally.records))(slice(None))
     records = np.zeros(size, dtype=np.int64)
     np.add.at(records, flat, tally.records)  # integer sums: exact at any count
     if tally.weight_sum is None:
-        return records
-    sums = np.zeros((3, size))
+        return CellSums(records)
+    sums = np.zeros((2, size))
     np.add.at(sums[0], flat, tally.weight_sum)
-    for k, per_line in ((1, tally.weight_square_sum), (2, tally.fractional)):
-        if per_line is not None:
-            np.add.at(sums[k], flat, per_line)
-    return np.vstack([records, sums])
+    if tally.weight_square_sum is not None:
+        np.add.at(sums[1], flat, tally.weight_square_sum)
+    return CellSums(records, sums[0], sums[1])
+
+
 #: Keywords renamed in 0.2.0, with their new names.
 RENAMED_KEYWORDS = {"layer": "control"}
 
@@ -408,27 +499,28 @@ def check_weights(weight: str, bad_nan: int, bad_inf: int, bad_neg: int) -> None
 
 def _weights(data: pd.DataFrame, weight: str) -> np.ndarray:
     """The weight column as floats; raises if a value is missing, infinite or negative."""
-    values, problems = _weight_values(data, weight)
-    check_weights(weight, *problems)
+    values = np.asarray(weight_column(data, weight), dtype=float)
+    if not (len(values) == 0 or (np.min(values) >= 0 and np.max(values) < np.inf)):
+        check_weights(weight, *weight_problems(values))  # NaN fails both comparisons
     return values
 
 
-def _weight_values(data: pd.DataFrame, weight: str) -> tuple[np.ndarray, tuple[int, int, int]]:
-    """The weight column as floats, and its missing, infinite and negative values (counted
-    only when its smallest or largest value shows there are some)."""
+def weight_column(data: pd.DataFrame, weight: str) -> np.ndarray:
+    """The weight column as numbers: NumPy integers, floats and booleans as they are (no
+    copy), anything else read as floats, a missing or non-numeric value as NaN."""
     column = data[weight]
     if isinstance(column.dtype, np.dtype) and column.dtype.kind in "fiub":
-        values = column.to_numpy(dtype=float, copy=False)  # no copy of a float64 column
-    else:
-        values = pd.to_numeric(column, errors="coerce").to_numpy(dtype=float)
-    if not len(values) or (np.min(values) >= 0 and np.max(values) < np.inf):  # NaN fails both
-        return values, (0, 0, 0)
-    # -inf counts as infinite only, so the three counts add up to the rows at fault
-    return values, (
-        int(np.isnan(values).sum()),
-        int(np.isinf(values).sum()),
-        int((np.isfinite(values) & (values < 0)).sum()),
-    )
+        return column.to_numpy(copy=False)
+    return pd.to_numeric(column, errors="coerce").to_numpy(dtype=float, na_value=np.nan)
+
+
+def weight_problems(values: np.ndarray) -> tuple[int, int, int]:
+    """How many weights are missing (NaN), infinite and, among the finite ones, negative: -inf
+    counts as infinite only, so the three add up to the rows at fault."""
+    if values.dtype.kind != "f":
+        return 0, 0, int(np.count_nonzero(values < 0))
+    return (int(np.count_nonzero(np.isnan(values))), int(np.count_nonzero(np.isinf(values))),
+            int(np.count_nonzero(np.isfinite(values) & (values < 0))))
 
 
 def _check_arguments(
@@ -462,10 +554,10 @@ def _check_arguments(
     return options["order"], options["exclude"], extra_flags
 
 
-def _dropped(sums: np.ndarray, lookups: Sequence[np.ndarray], dropna: bool) -> tuple[int, int]:
-    """Records dropped for a missing value (raw code 0 in any role, with ``dropna``) and,
-    among the others, for an excluded category, from the records per raw combination."""
-    shape = sums.shape
+def _dropped_combinations(shape: tuple, lookups: Sequence[np.ndarray],
+                          dropna: bool) -> tuple[np.ndarray, np.ndarray]:
+    """Which raw combinations are dropped for a missing value (raw code 0 in any role, with
+    ``dropna``) and which are dropped at all (missing, excluded or outside ``order=``)."""
     missing = np.zeros(shape, dtype=bool)
     dropped = np.zeros(shape, dtype=bool)
     for axis, lookup in enumerate(lookups):
@@ -474,7 +566,7 @@ def _dropped(sums: np.ndarray, lookups: Sequence[np.ndarray], dropna: bool) -> t
         if dropna:
             missing |= (np.arange(shape[axis]) == 0).reshape(along)
         dropped |= (lookup < 0).reshape(along)
-    return int(sums[missing].sum()), int(sums[dropped & ~missing].sum())
+    return missing, dropped | missing
 
 
 def _cells(sums: np.ndarray, lookups: Sequence[np.ndarray], shape: tuple) -> np.ndarray:
@@ -578,22 +670,25 @@ def table(
     raws = [raw_codes(data[name]) for _, name, _ in roles]
     sizes = tuple(raw.size for raw in raws)
     strides = [int(np.prod(sizes[k + 1:])) for k in range(len(sizes))]
-    # counting: records (and weight sums) per combination of raw codes, then the rules
-    problems = (0, 0, 0)
+    # counting: records and weight sums per combination of raw codes, then the rules
+    size, w = int(np.prod(sizes)), None
     if tally is not None:
-        sums = _count_lines(raws, strides, int(np.prod(sizes)), tally)
+        sums = _count_lines(raws, strides, size, tally)
     elif weight is None:
-        sums = _count_cells(raws, strides, int(np.prod(sizes)))
+        sums = _count_cells(raws, strides, size)
     else:
-        w, problems = _weight_values(data, weight)
-        sums = _count_cells(raws, strides, int(np.prod(sizes)), w,
-                            squares=weight_kind == "sampling",
-                            fractional=weight_kind == "frequency")
-    sums = sums.reshape(-1, *sizes)
-    records = sums[0].astype(np.int64)
+        w = weight_column(data, weight)
+        # frequency weights: records are counted only where the weight sums cannot stand in
+        sums = _count_cells(raws, strides, size, w, squares=weight_kind == "sampling",
+                            records=weight_kind == "sampling")
+    records = sums.records
+    if records is None and not sums.lowest > 0:  # a zero, missing or negative weight
+        records = _count_cells(raws, strides, size).records
+    # with every weight positive, a combination has records exactly when its weight sum is > 0
+    present = (records if records is not None else sums.weight).reshape(sizes)
     rules = {}
     for k, ((role, name, axis), raw) in enumerate(zip(roles, raws, strict=True)):
-        found = records.sum(axis=tuple(a for a in range(len(roles)) if a != k))
+        found = present.sum(axis=tuple(a for a in range(len(roles)) if a != k))
         rules[role] = column_rule(raw, found, name, axis, order.get(name), exclude.get(name),
                                   dropna, nominal=(role == "control"))
     r, c = rules["row"], rules["col"]
@@ -604,23 +699,27 @@ def table(
             f"The control variable {control!r} has no category left to hold fixed: every value is "
             "missing or excluded. Leave out control=, or keep missing values with dropna=False."
         )
-    if tally is None and weight is not None:
-        check_weights(weight, *problems)
+    if w is not None and not (sums.lowest >= 0 and np.isfinite(sums.weight.sum())):
+        check_weights(weight, *weight_problems(w))  # NaN fails both comparisons
     # bookkeeping of dropped records, and the cells
     lookups = [rules[role].lookup for role, _, _ in roles]
-    n_missing, n_excluded = _dropped(records, lookups, dropna)
+    missing, dropped = _dropped_combinations(sizes, lookups, dropna)
+    if records is None and present[missing | dropped].any():  # some records were dropped
+        records = _count_cells(raws, strides, size).records
+    n_missing, n_excluded = (0, 0) if records is None else (
+        int(records.reshape(sizes)[mask].sum()) for mask in (missing, dropped & ~missing))
     shape = (n_k, n_i, n_j)
     squared = per_cell = None
     if weight is None:
-        cells = _cells(records, lookups, shape)
+        cells = _cells(records.reshape(sizes), lookups, shape)
     else:
-        cells = _cells(sums[1], lookups, shape)
+        cells = _cells(sums.weight.reshape(sizes), lookups, shape)
         check_total(float(cells.sum()), f"weights in {weight!r}")
-        if weight_kind == "frequency" and not _cells(sums[3], lookups, shape).any():
-            cells = whole_counts(cells)
+        if weight_kind == "frequency" and np.all(np.mod(cells, 1) == 0):
+            cells = whole_counts(cells)  # every cell's total a whole number
         if weight_kind == "sampling":
-            squared = _cells(sums[2], lookups, shape)
-            per_cell = _cells(records, lookups, shape)
+            squared = _cells(sums.squares.reshape(sizes), lookups, shape)
+            per_cell = _cells(records.reshape(sizes), lookups, shape)
     steps = r.steps + c.steps + (rules["control"].steps if control is not None else ())
     origin = Origin(
         "frame",
