@@ -21,13 +21,14 @@ weighting (none, frequency weights, sampling weights) it prints
   records, sum of w and sum of w² (sampling), ``observed=True``; for text columns without
   weights also ``DataFrame.value_counts`` and ``pd.crosstab``;
 * ``peak``: the peak memory of ``rankfold.table`` (tracemalloc, which sees NumPy's and pandas'
-  allocations but not pyarrow's memory pool) against the memory of the two columns plus the
-  weight column (goal: at most 2). An object column's memory is its array of references plus
-  each distinct string once (``memory_usage(deep=True)`` would count a shared string at every
-  row).
+  allocations, plus the peak of pyarrow's memory pool, read through a proxy pool) against the
+  memory of the two columns plus the weight column (goal: at most 2). An object column's
+  memory is its array of references plus each distinct string once (``memory_usage(deep=True)``
+  would count a shared string at every row).
 
-Each time is the best of several runs (``timing.best_of``), ours and the baselines measured in the
-same process, one after the other, to damp noise from other processes on a shared machine.
+Each time is the best of several runs, ours and the bincount baseline taking turns
+(``timing.best_of_each``) in the same process, to damp noise from other processes on a shared
+machine; the slower pandas references are the best of two.
 The data are invented: codes drawn from a seeded generator with a built-in association (6 row
 and 5 column categories), plus integer weights 1..5 (frequency) and gamma-distributed ones
 (sampling).
@@ -41,7 +42,7 @@ import tracemalloc
 
 import numpy as np
 import pandas as pd
-from timing import best_of
+from timing import best_of, best_of_each
 
 import rankfold
 
@@ -113,12 +114,24 @@ def pandas_way(frame: pd.DataFrame, weighting: str):
 
 
 def peak_bytes(run) -> int:
+    """Peak bytes allocated while ``run`` runs: NumPy's and pandas' (tracemalloc) plus pyarrow's
+    own memory pool (its peak, through a proxy pool set as the default for the run)."""
+    try:
+        import pyarrow as pa
+    except ImportError:
+        pa = None
+    if pa is not None:
+        default = pa.default_memory_pool()
+        proxy = pa.proxy_memory_pool(default)
+        pa.set_memory_pool(proxy)
     tracemalloc.start()
     try:
         run()
-        return tracemalloc.get_traced_memory()[1]
+        return tracemalloc.get_traced_memory()[1] + (proxy.max_memory() if pa else 0)
     finally:
         tracemalloc.stop()
+        if pa is not None:
+            pa.set_memory_pool(default)
 
 
 def main() -> None:
@@ -150,8 +163,9 @@ def main() -> None:
             got = ours_call()
             first = expected[1] if weighting == "sampling" else expected
             np.testing.assert_allclose(got.cells.ravel(), first, rtol=1e-9)  # the same table
-            base = best_of(args.repeats, baseline(codes, cells, weighting, w))
-            ours = best_of(args.repeats, ours_call)
+            best = best_of_each(args.repeats, {"base": baseline(codes, cells, weighting, w),
+                                               "ours": ours_call})
+            base, ours = best["base"], best["ours"]
             theirs = best_of(2, pandas_way(data, weighting))
             memory = two_columns + (0 if w is None else w.nbytes)
             peak = peak_bytes(ours_call)
