@@ -22,7 +22,8 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from .counting import check_columns, check_weights, order_kind, order_needed
+from .column_coding import order_kind, order_needed
+from .table_checks import check_columns, check_weights
 
 __all__ = ["MAX_LINES", "Tally", "engine_name", "schema", "tally_source"]
 

@@ -18,9 +18,9 @@ import pandas as pd
 import pytest
 
 import rankfold
-from rankfold import counting
+from rankfold import cell_sums
 
-ROWS = 2 * counting.BLOCK + 1234  # two blocks and a partial last one
+ROWS = 2 * cell_sums.BLOCK + 1234  # two blocks and a partial last one
 ROW_LABELS = ["low", "mid", "high", "top"]
 COL_LABELS = ["never", "sometimes", "often"]
 
