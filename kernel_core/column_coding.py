@@ -185,7 +185,8 @@ def column_rule(
     nominal: bool = False,
 ) -> ColumnRule:
     """Apply the ordering rules of :func:`table` to one column, given the records found per
-    raw code (``found[0]``: missing values)."""
+    raw code (``found[0]``: missing values), or any numbers positive exactly where there are
+    records (the weight sums when every weight is positive)."""
     seen = np.asarray(found[1:]) > 0
     uniques = [_python_scalar(u) for u, s in zip(raw.uniques, seen, strict=True)
                if s or raw.all_categories]
