@@ -186,7 +186,8 @@ def column_rule(
 ) -> ColumnRule:
     """Apply the ordering rules of :func:`table` to one column, given the records found per
     raw code (``found[0]``: missing values), or any numbers positive exactly where there are
-    records (the weight sums when every weight is positive)."""
+    records (the weight sums when every weight is positive; the result's ``n_missing`` is then
+    that number, not a count of records)."""
     seen = np.asarray(found[1:]) > 0
     uniques = [_python_scalar(u) for u, s in zip(raw.uniques, seen, strict=True)
                if s or raw.all_categories]
@@ -233,7 +234,7 @@ def column_rule(
     n_missing = int(found[0])
     missing_at = -1
     missing_label = None
-    if not dropna and n_missing:
+    if not dropna and found[0] > 0:
         if MISSING_LABEL in position:
             raise ValueError(
                 f"Column {name!r} already has a category {MISSING_LABEL!r}; fill missing values "

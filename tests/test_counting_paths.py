@@ -224,3 +224,14 @@ def test_fractional_weights_whose_cells_are_whole_give_integer_counts():
     np.testing.assert_array_equal(t.cells[0], [[1, 0], [3, 2]])
     t = rankfold.table(frame.assign(w=[0.5, 0.25, 1.5, 0.5, 3.0]), "x", "y", weight="w")
     assert t.cells.dtype == np.float64
+
+
+def test_missing_values_kept_with_small_frequency_weights():
+    # dropna=False keeps missing values as a category whatever their weights' total, here
+    # below 1; the cells are pandas' group-by sums with missing values as a group of their own.
+    frame = pd.DataFrame({"x": [1.0, 2.0, np.nan, 1.0, 2.0], "y": [1, 1, 2, 2, 2],
+                          "w": [1.0, 2.0, 0.25, 1.5, 1.0]})
+    t = rankfold.table(frame, "x", "y", weight="w", dropna=False)
+    assert t.row_labels == (1.0, 2.0, "(missing)")
+    want = frame.groupby(["x", "y"], dropna=False)["w"].sum().unstack(fill_value=0)
+    np.testing.assert_allclose(t.cells[0], want.to_numpy())
