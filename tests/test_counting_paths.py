@@ -235,3 +235,20 @@ def test_missing_values_kept_with_small_frequency_weights():
     assert t.row_labels == (1.0, 2.0, "(missing)")
     want = frame.groupby(["x", "y"], dropna=False)["w"].sum().unstack(fill_value=0)
     np.testing.assert_allclose(t.cells[0], want.to_numpy())
+
+
+@pytest.mark.parametrize("dtype, rare", [("int64", 1990), ("int32", 1950),
+                                         ("uint32", 2_000_000_000)])
+def test_long_integer_column_with_a_rare_value(dtype, rare):
+    # One record far from the others (within the offset coding's span, or far outside it, so
+    # the column is coded another way) in a long column is counted in its place.
+    # Reference: pandas group-by sizes.
+    rng = np.random.default_rng(9)
+    size = (1 << 20) + 4099
+    x = rng.integers(1960, 1966, size).astype(dtype)
+    x[1] = rare
+    frame = pd.DataFrame({"x": x, "y": rng.integers(0, 3, size).astype(dtype)})
+    t = rankfold.table(frame, "x", "y")
+    want = frame.groupby(["x", "y"]).size().unstack(fill_value=0)
+    assert list(t.row_labels) == sorted(set(x.tolist()))
+    np.testing.assert_array_equal(t.cells[0], want.to_numpy())
