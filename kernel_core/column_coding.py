@@ -109,7 +109,7 @@ def _held_by_arrow(series: pd.Series) -> bool:
     or an ``ArrowDtype`` of strings."""
     dtype = series.dtype
     if isinstance(dtype, pd.StringDtype):
-        return dtype.storage == "pyarrow"
+        return dtype.storage in ("pyarrow", "pyarrow_numpy")  # the latter: pandas 2.1 to 2.3
     return isinstance(dtype, pd.ArrowDtype) and dtype.kind in "OSU"  # string, large_string
 
 
