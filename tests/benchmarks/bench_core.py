@@ -12,11 +12,7 @@ Run: ``python tests/benchmarks/bench_core.py`` (about 15 seconds on two cores). 
     and the batched array kernel ``ordinal_measure_arrays`` (the seven ordinal measures with
     both standard errors);
 (c) peak memory (tracemalloc) of counting the 10-million-record table against the frame size;
-(d) counting 10 million records by column type (categorical, int8, int64, boolean, text with
-    ``order=``), without weights and with frequency and sampling weights: the time of
-    ``rankfold.table`` against one ``np.bincount`` on ready int64 cell codes of the same rows
-    (with the same weights when weighted; goal: within 2x), and its peak memory (tracemalloc)
-    against the memory of the two columns (goal: at most 2x);
+(d) counting by column type and weighting: see ``bench_counting.py``;
 (e) a 5 x 7 table: ``measures()`` with and without its polychoric row, the polychoric fit
     alone, ``measures()`` called again on the same table (the kept result, copied) and the
     array kernel, against ``scipy.stats.somersd`` on the same table (goal:
@@ -144,59 +140,6 @@ def without_polychoric(run, repeats: int) -> float:
         measure_table.polychoric_arrays = real
 
 
-def typed_columns(size: int, seed: int = 11) -> dict[str, tuple[pd.Series, pd.Series, dict]]:
-    """The same invented association as ``invented_records``, stored as each column type."""
-    rng = np.random.default_rng(seed)
-    row = rng.integers(0, 6, size=size, dtype=np.int8)
-    col = np.clip(row * 4 // 6 + rng.integers(-1, 2, size=size, dtype=np.int8), 0, 4)
-    col = col.astype(np.int8)
-    words = np.array(["never", "rarely", "sometimes", "often", "always"], dtype=object)
-    bands = np.array([f"band {k}" for k in range(1, 7)], dtype=object)
-    return {
-        "categorical": (pd.Series(pd.Categorical.from_codes(row, list(bands), ordered=True)),
-                        pd.Series(pd.Categorical.from_codes(col, list(words), ordered=True)), {}),
-        "int8": (pd.Series(row), pd.Series(col), {}),
-        "int64": (pd.Series(row.astype(np.int64) + 1960), pd.Series(col.astype(np.int64)), {}),
-        "boolean": (pd.Series(row >= 3), pd.Series(col >= 2), {}),
-        "text with order=": (pd.Series(bands[row]), pd.Series(words[col]),
-                             {"order": {"x": list(bands), "y": list(words)}}),
-    }
-
-
-def counting_by_column_type(size: int) -> None:
-    rng = np.random.default_rng(3)
-    weights = {"no weights": None,
-               "frequency": rng.integers(1, 6, size=size).astype(float),
-               "sampling": rng.gamma(4.0, 0.5, size=size)}
-    print(f"(d) counting {size:,} records by column type "
-          "(ratios to np.bincount on ready int64 codes, same rows, same run)")
-    print(f"    {'columns':18s} {'weights':10s} {'rankfold':>9s} {'bincount':>9s} {'ratio':>6s}"
-          f" {'peak MiB':>9s} {'2 cols MiB':>10s} {'ratio':>6s}")
-    for kind, (x, y, options) in typed_columns(size).items():
-        frame = pd.DataFrame({"x": x, "y": y})
-        two_columns = frame.memory_usage(deep=True, index=False).sum()
-        ready = rankfold.table(frame, "x", "y", **options)
-        n_j = len(ready.col_labels)
-        codes = (x.cat.codes.to_numpy() if kind == "categorical" else pd.factorize(x, sort=True)[0])
-        codes = codes.astype(np.int64) * n_j + (
-            y.cat.codes.to_numpy() if kind == "categorical" else pd.factorize(y, sort=True)[0])
-        for label, w in weights.items():
-            data = frame if w is None else frame.assign(w=w)
-            extra = {} if w is None else {"weight": "w", "weight_kind": label}
-            size_ij = len(ready.row_labels) * n_j
-            ours = best_time(lambda d=data, o=options, e=extra:
-                             rankfold.table(d, "x", "y", **o, **e),
-                             3)
-            base = best_time(lambda c=codes, w=w, m=size_ij: np.bincount(c, w, minlength=m), 3)
-            tracemalloc.start()
-            rankfold.table(data, "x", "y", **options, **extra)
-            _, peak = tracemalloc.get_traced_memory()
-            tracemalloc.stop()
-            print(f"    {kind:18s} {label:10s} {ours * 1e3:7.1f}ms {base * 1e3:7.1f}ms "
-                  f"{ours / base:5.2f}x {peak / 2**20:9.1f} {two_columns / 2**20:10.1f} "
-                  f"{peak / two_columns:5.2f}x")
-
-
 def small_tables_versus_somersd() -> None:
     from rankfold.control_variable import control_measures
     from rankfold.polychoric import polychoric_arrays
@@ -242,5 +185,4 @@ def small_tables_versus_somersd() -> None:
 if __name__ == "__main__":
     small_tables_versus_somersd()
     table_versus_somersd(50)
-    counting_by_column_type(10_000_000)
     records_versus_kendalltau(10_000_000)
