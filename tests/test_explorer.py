@@ -12,7 +12,7 @@ import pandas as pd
 import pytest
 
 import rankfold
-from rankfold.widgets import render as render_module
+from rankfold.widgets import heatmap as heatmap_module
 
 ROW, COL = "trip_length", "service_rating"
 
@@ -392,7 +392,7 @@ def test_an_unexpected_failure_is_a_message_not_a_traceback(ex, monkeypatch):
     def broken(*args, **kwargs):
         raise RuntimeError("drawing failed")
 
-    monkeypatch.setattr(render_module, "heatmap_chart", broken)
+    monkeypatch.setattr(heatmap_module, "heatmap_chart", broken)
     one(ex, "rankfold-colour-by").value = "row_percent"
     assert "Unexpected problem (RuntimeError: drawing failed)" in message(ex)
     assert ex.state.colour_by == "count"

@@ -19,18 +19,13 @@ from rankfold import measure_label
 
 from . import formatting
 from .chart_pane import ChartPane, building, inline_data
+from .render import BASELINES, COMPARED
 
 if TYPE_CHECKING:
     from .render import Rendered
 
-__all__ = ["comparison_chart", "comparison_html", "ComparisonSection", "COMPARED", "BASELINES",
-           "CHOICE_CAUTION"]
-
-#: The measures compared, in display order.
-COMPARED = ("gamma", "somers_d_col_given_row", "somers_d_row_given_col", "somers_d_symmetric",
-            "tau_b", "tau_c", "spearman_rho")
-#: What the current coding can be compared against: key -> name shown for the earlier table.
-BASELINES = {"collected": "as collected", "previous": "before the last step"}
+__all__ = ["comparison_chart", "rendered_comparison", "comparison_html", "ComparisonSection",
+           "COMPARED", "BASELINES", "CHOICE_CAUTION"]
 _CURRENT = "current coding"
 _COLOURS = ("#8c8c8c", "#3a78b5")
 
@@ -124,6 +119,26 @@ def comparison_chart(comparison: pd.DataFrame, row_name: str, col_name: str,
                                      "intervals above"),
         )
         return alt.VConcatChart(vconcat=[estimates, change], background="#ffffff")
+
+
+def rendered_comparison(rendered: Rendered, baseline: str = "collected") -> alt.VConcatChart:
+    """The explorer's comparison chart of a rendered state: :func:`comparison_chart` of
+    :meth:`~rankfold.widgets.render.Rendered.compared` against ``baseline``.
+
+    Parameters
+    ----------
+    rendered : Rendered
+        See :class:`rankfold.widgets.render.Rendered`.
+    baseline : {'collected', 'previous'}
+        The table as collected, or the table before the last step.
+
+    Returns
+    -------
+    altair.VConcatChart
+    """
+    table = rendered.table
+    return comparison_chart(rendered.compared(baseline), table.row_name, table.col_name,
+                            baseline)
 
 
 def comparison_html(comparison: pd.DataFrame, row_name: str, col_name: str,
@@ -244,7 +259,6 @@ class ComparisonSection:
         baseline = self.baseline.value
         table = rendered.table
         self._which.value = f"<p>{formatting.text(rendered.baseline_description(baseline))}</p>"
-        self._pane.show(rendered.chart("comparison" if baseline == "collected"
-                                       else "comparison_previous"))
+        self._pane.show(rendered_comparison(rendered, baseline))
         self._table.value = comparison_html(rendered.compared(baseline), table.row_name,
                                             table.col_name, baseline)

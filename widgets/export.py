@@ -24,6 +24,7 @@ import traitlets
 from rankfold import OrdinalTable, measure_label
 
 from . import formatting
+from .named_charts import CHARTS, named_chart
 from .pickers import labelled
 from .table_mode import has_records
 
@@ -40,9 +41,6 @@ CHART_FORMATS = ("html", "json", "png", "svg")
 TABLE_FORMATS = {"csv": ".csv", "markdown": ".md", "latex": ".tex"}
 #: Where the Export tab writes, relative to the kernel's working directory.
 DEFAULT_FOLDER = "rankfold-exports"
-_CHART_NAMES = {"heatmap": "heatmap", "pairs": "pair view",  # render.CHARTS
-                "comparison": "comparison with the table as collected",
-                "comparison_previous": "comparison with the previous step"}
 #: Words that mark a phrase of a chart title as a hint for the live chart.
 _HINT = re.compile(r"\b(click|clicking|hover|tap|drag)\b", re.IGNORECASE)
 
@@ -421,7 +419,7 @@ class ExportSection:
         self._notify = notify
         self._rendered = None
         wide = widgets.Layout(width="auto", max_width="100%")
-        self._chart = widgets.Dropdown(options=[(v, k) for k, v in _CHART_NAMES.items()],
+        self._chart = widgets.Dropdown(options=[(v[0], k) for k, v in CHARTS.items()],
                                        description="chart", layout=wide,
                                        tooltip="Which chart the buttons save")
         self._chart.add_class("rankfold-export-chart")
@@ -528,7 +526,7 @@ class ExportSection:
     def _saver(self, fmt: str) -> Callable:
         def save(_) -> None:
             name = self._chart.value
-            chart = self._rendered.chart(name)
+            chart = named_chart(self._rendered, name)
             if chart is None:
                 self._notify("There is no pair view to save yet: choose a cell first.", error=True)
                 return
@@ -541,7 +539,7 @@ class ExportSection:
             except (ValueError, OSError) as err:
                 self._notify(f"Could not save the chart: {err}", error=True)
                 return
-            self._notify(f"Saved the {_CHART_NAMES[name]} to {written}")
+            self._notify(f"Saved the {CHARTS[name][0]} to {written}")
 
         return save
 

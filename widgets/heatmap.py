@@ -18,7 +18,8 @@ from .state import COLOUR_CHOICES
 if TYPE_CHECKING:
     from .render import Rendered
 
-__all__ = ["heatmap_chart", "HeatmapSection", "grid_axes", "cell_width", "TOTAL"]
+__all__ = ["heatmap_chart", "rendered_heatmap", "HeatmapSection", "grid_axes", "cell_width",
+           "TOTAL"]
 
 TOTAL = "total"
 CELL_WIDTH = 78  # the widest a cell gets
@@ -203,6 +204,25 @@ def heatmap_chart(
         )
 
 
+def rendered_heatmap(rendered: Rendered) -> alt.LayerChart:
+    """The explorer's heatmap of a rendered state: :func:`heatmap_chart` of its table in the
+    state's colouring, with the chosen cell (if it is still a cell of the table) outlined.
+
+    Parameters
+    ----------
+    rendered : Rendered
+        See :class:`rankfold.widgets.render.Rendered`.
+
+    Returns
+    -------
+    altair.LayerChart
+    """
+    regions, table = rendered.regions, rendered.table
+    chosen = None if regions is None else (regions.row, regions.col)
+    return heatmap_chart(rendered.figures, rendered.state.colour_by, table.row_name,
+                         table.col_name, chosen, weight=table.weight)
+
+
 #: A plain explanation of each colouring, shown as its button's tooltip.
 COLOUR_HELP = {
     "count": "How many units fall in each cell",
@@ -247,7 +267,7 @@ class HeatmapSection:
         """Display the rendered state (see :class:`rankfold.widgets.render.Rendered`)."""
         self._rendered = rendered
         self._colour.value = rendered.state.colour_by
-        self._pane.show(rendered.chart("heatmap"))
+        self._pane.show(rendered_heatmap(rendered))
 
     def _colour_changed(self, change: dict) -> None:
         self._propose(lambda state: state.with_view(colour_by=change["new"]))

@@ -20,7 +20,8 @@ from .pickers import labelled
 if TYPE_CHECKING:
     from .render import Rendered
 
-__all__ = ["pair_chart", "pair_table_html", "PairSection", "ink_for", "relative_luminance"]
+__all__ = ["pair_chart", "rendered_pairs", "pair_table_html", "PairSection", "ink_for",
+           "relative_luminance"]
 
 # The chart legend: concordant, discordant, tied (any tie), and the chosen cell itself.
 _SHOWN = {key: kind.split()[0] for key, kind in REGIONS.items()} | {"same_cell": "chosen cell"}
@@ -175,6 +176,25 @@ def pair_table_html(
     )
 
 
+def rendered_pairs(rendered: Rendered) -> alt.LayerChart | None:
+    """The explorer's pair view of a rendered state: :func:`pair_chart` around its chosen
+    cell, or None while no cell of the table is chosen.
+
+    Parameters
+    ----------
+    rendered : Rendered
+        See :class:`rankfold.widgets.render.Rendered`.
+
+    Returns
+    -------
+    altair.LayerChart or None
+    """
+    if rendered.regions is None:
+        return None
+    table = rendered.table
+    return pair_chart(rendered.figures, rendered.regions, table.row_name, table.col_name)
+
+
 class PairSection:
     """Chooses a cell (from a list or by clicking either chart) and explains its pairs.
 
@@ -216,7 +236,7 @@ class PairSection:
         if [o[1] for o in self._cell.options] != [o[1] for o in options]:
             self._cell.options = options
         self._cell.value = rendered.state.chosen_cell if rendered.regions is not None else None
-        self._pane.show(rendered.chart("pairs"))
+        self._pane.show(rendered_pairs(rendered))
         self._table.value = (
             "" if rendered.regions is None
             else pair_table_html(rendered.regions, rendered.state.chosen_cell,

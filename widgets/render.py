@@ -1,8 +1,11 @@
-"""The render pass: from an :class:`ExplorerState` to every number and chart the explorer shows.
+"""The render pass: from an :class:`ExplorerState` to every number the explorer shows.
 
 The user's frame is counted once per variable pair (:class:`TableCache`); every edit or view
 change starts again from that cached table, so a change costs a few milliseconds whatever the
-number of records. Statistics all come from the core; this module only chains the calls.
+number of records. Statistics all come from the core; this module only chains the calls. It
+draws nothing: each view module builds its own chart from a :class:`Rendered` (the heatmap in
+``heatmap.py``, the pair view in ``pair_view.py``, ...), and imports this module, never the
+other way round.
 """
 
 from __future__ import annotations
@@ -11,22 +14,21 @@ from collections.abc import Hashable
 from dataclasses import dataclass, field
 from typing import Any
 
-import altair as alt
 import pandas as pd
 
 import rankfold
 from rankfold import Diagnostics, OrdinalTable, PairRegions
 
-from .comparison import BASELINES, COMPARED, comparison_chart
-from .heatmap import heatmap_chart
-from .pair_view import pair_chart
 from .state import ExplorerState
 from .table_mode import fixed_table, has_records
 
-__all__ = ["TableCache", "Rendered", "render", "CHARTS"]
+__all__ = ["TableCache", "Rendered", "render", "COMPARED", "BASELINES"]
 
-#: Names of the charts a rendered state can draw (see :meth:`Rendered.chart`).
-CHARTS = ("heatmap", "pairs", "comparison", "comparison_previous")
+#: The measures :meth:`Rendered.compared` compares, in display order.
+COMPARED = ("gamma", "somers_d_col_given_row", "somers_d_row_given_col", "somers_d_symmetric",
+            "tau_b", "tau_c", "spearman_rho")
+#: What the current coding can be compared against: key -> name shown for the earlier table.
+BASELINES = {"collected": "as collected", "previous": "before the last step"}
 
 
 class TableCache:
@@ -66,7 +68,7 @@ class TableCache:
 
 @dataclass(frozen=True)
 class Rendered:
-    """Everything derived from one state; charts are drawn on first request.
+    """Every number derived from one state (the views draw their charts from it).
 
     Attributes
     ----------
@@ -100,33 +102,12 @@ class Rendered:
     previous: OrdinalTable
     left_out: float
     source: TableCache = field(repr=False, compare=False)
-    _charts: dict = field(default_factory=dict, repr=False, compare=False)
+    _compared: dict = field(default_factory=dict, repr=False, compare=False)
 
     @property
     def before_last_step(self) -> OrdinalTable | None:
         """The table before the state's last coding step; None when there is no step."""
         return self.previous if self.state.edits else None
-
-    def chart(self, name: str) -> alt.TopLevelMixin | None:
-        """The named chart (one of :data:`CHARTS`), built on first request; None for the pair
-        chart while no cell is chosen."""
-        if name not in CHARTS:
-            raise ValueError(f"Unknown chart {name!r}; the explorer draws {list(CHARTS)}.")
-        if name not in self._charts:
-            t = self.table
-            if name == "heatmap":
-                chosen = None if self.regions is None else (self.regions.row, self.regions.col)
-                drawn = heatmap_chart(self.figures, self.state.colour_by, t.row_name, t.col_name,
-                                      chosen, weight=t.weight)
-            elif name == "pairs":
-                drawn = (None if self.regions is None
-                         else pair_chart(self.figures, self.regions, t.row_name, t.col_name))
-            else:
-                baseline = "collected" if name == "comparison" else "previous"
-                drawn = comparison_chart(self.compared(baseline), t.row_name, t.col_name,
-                                         baseline)
-            self._charts[name] = drawn
-        return self._charts[name]
 
     @property
     def comparison(self) -> pd.DataFrame:
@@ -146,16 +127,15 @@ class Rendered:
         Returns
         -------
         pandas.DataFrame
-            The measures of :data:`~rankfold.widgets.comparison.COMPARED`, one row each.
+            The measures of :data:`COMPARED`, one row each.
         """
         if baseline not in BASELINES:
             raise ValueError(f"Compare against one of {list(BASELINES)}; got {baseline!r}.")
-        key = f"compared:{baseline}"
-        if key not in self._charts:
+        if baseline not in self._compared:
             before = self.collected if baseline == "collected" else self.previous
             keys = [k for k in COMPARED if k in self.measures.index]
-            self._charts[key] = rankfold.compare_measures(before, self.table, keys)
-        return self._charts[key]
+            self._compared[baseline] = rankfold.compare_measures(before, self.table, keys)
+        return self._compared[baseline]
 
     def baseline_description(self, baseline: str) -> str:
         """One sentence naming the earlier table of :meth:`compared`."""

@@ -20,6 +20,7 @@ from . import formatting
 from .computation_view import computation_html
 from .export import code_snippet
 from .heatmap import heatmap_chart
+from .named_charts import named_chart
 from .static_record import RECORD_STYLE, chart_svg, counts_html, steps_html
 
 if TYPE_CHECKING:
@@ -274,9 +275,11 @@ def rendered_report(rendered: Rendered, path: str | Path, sweep: pd.DataFrame | 
         The absolute path written.
     """
     charts = {
-        "Counts in each cell (colour as chosen in the explorer)": rendered.chart("heatmap"),
-        "Each measure as collected and with the current coding": rendered.chart("comparison"),
-        "Pairs around the chosen cell": rendered.chart("pairs"),
+        "Counts in each cell (colour as chosen in the explorer)": named_chart(rendered,
+                                                                              "heatmap"),
+        "Each measure as collected and with the current coding": named_chart(rendered,
+                                                                             "comparison"),
+        "Pairs around the chosen cell": named_chart(rendered, "pairs"),
     }
     text = report_html(rendered.table, measures=rendered.measures, tests=rendered.tests,
                        charts=charts, sweep=sweep, before=rendered.before_last_step,

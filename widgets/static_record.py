@@ -23,6 +23,7 @@ from rankfold import OrdinalTable
 
 from . import formatting
 from .export import static_spec
+from .heatmap import rendered_heatmap
 from .measures_panel import measures_html
 
 if TYPE_CHECKING:
@@ -177,7 +178,7 @@ def record_html(
 def _rendered_record(rendered: Rendered, heading: str, css_class: str) -> str:
     return record_html(rendered.table, rendered.measures, rendered.tests,
                        rendered.diagnostics.warnings, rendered.left_out,
-                       rendered.chart("heatmap"), heading, css_class)
+                       rendered_heatmap(rendered), heading, css_class)
 
 
 def snapshot_html(rendered: Rendered) -> str:
