@@ -24,10 +24,13 @@ from altair.jupyter.jupyter_chart import Selections
 from altair.utils.schemapi import debug_mode
 from altair.utils.selection import IndexSelection, IntervalSelection, PointSelection
 
-__all__ = ["ChartPane", "CLICK", "building", "inline_data", "specification", "chart_shape"]
+__all__ = ["ChartPane", "CLICK", "SCHEMA", "building", "inline_data", "inline_values",
+           "click_on", "specification", "chart_shape", "as_altair"]
 
 #: Name of the point selection a clickable chart declares; its fields identify the cell.
 CLICK = "cell"
+#: The Vega-Lite version tag of specifications written as dictionaries (Altair's own).
+SCHEMA = alt.SCHEMA_URL
 
 # The mode is stated because the pane drops "$schema" (below), from which the page would
 # otherwise guess it; without either, a concatenated chart (the within-levels view) is taken for a
@@ -49,13 +52,73 @@ def building() -> AbstractContextManager[None]:
     return debug_mode(False)
 
 
-def inline_data(records: Sequence[dict[str, Any]]) -> alt.Data:
-    """Chart data written into the specification as one JSON text.
+def inline_values(records: Sequence[dict[str, Any]]) -> dict:
+    """Chart data written into the specification as one JSON text (a Vega-Lite ``data``).
 
     Vega-Lite accepts inline values as text with a format; checking the specification then
     treats the data as one string instead of checking every record, which keeps redrawing fast.
+
+    Parameters
+    ----------
+    records : sequence of dict
+        One dict of JSON values per datum.
+
+    Returns
+    -------
+    dict
+        ``{"values": <JSON text>, "format": {"type": "json"}}``.
     """
-    return alt.Data(values=json.dumps(list(records)), format=alt.DataFormat(type="json"))
+    return {"values": json.dumps(list(records)), "format": {"type": "json"}}
+
+
+def inline_data(records: Sequence[dict[str, Any]]) -> alt.Data:
+    """:func:`inline_values` as an Altair ``Data`` object, for charts built with Altair."""
+    return alt.Data(**inline_values(records))
+
+
+def click_on(views: Sequence[str], fields: Sequence[str] = ("row_position", "col_position"),
+             name: str = CLICK) -> dict:
+    """A point selection set by a click on a mark of the named views (layers), as a
+    Vega-Lite top-level parameter.
+
+    Parameters
+    ----------
+    views : sequence of str
+        The ``name`` of each layer whose marks can be clicked.
+    fields : sequence of str
+        The data fields a click selects (by default a cell's positions).
+    name : str
+        The selection's name (:data:`CLICK`).
+
+    Returns
+    -------
+    dict
+        ``{"name": ..., "select": {"type": "point", "fields": [...], "on": "click"},
+        "views": [...]}``, what Altair writes for ``alt.selection_point`` added to a layer.
+    """
+    return {"name": name, "select": {"type": "point", "fields": list(fields), "on": "click"},
+            "views": list(views)}
+
+
+def as_altair(spec: dict) -> alt.TopLevelMixin:
+    """An Altair chart holding a Vega-Lite specification written as a dictionary.
+
+    Parameters
+    ----------
+    spec : dict
+        A top-level specification (layered, concatenated or a single view).
+
+    Returns
+    -------
+    altair.TopLevelMixin
+        The matching chart class (``LayerChart``, ``ConcatChart``, ``VConcatChart``,
+        ``HConcatChart`` or ``Chart``), checked against the schema as it is read; restyle,
+        save or display it as any Altair chart.
+    """
+    kinds = {"layer": alt.LayerChart, "concat": alt.ConcatChart, "vconcat": alt.VConcatChart,
+             "hconcat": alt.HConcatChart}
+    kind = next((cls for key, cls in kinds.items() if key in spec), alt.Chart)
+    return kind.from_dict(spec)
 
 
 #: Keys whose values never change which part of the schema applies: text shown to the reader,
@@ -97,23 +160,23 @@ def chart_shape(spec: Any, free: bool = False) -> Hashable:
     return spec if isinstance(spec, str) else type(spec).__name__
 
 
-def specification(chart: alt.TopLevelMixin) -> dict:
+def specification(chart: alt.TopLevelMixin | dict) -> dict:
     """The chart's Vega-Lite specification, checked against the schema once per shape.
 
     Parameters
     ----------
-    chart : altair chart
-        Any top-level chart.
+    chart : altair chart or dict
+        Any top-level chart, or a specification written as a dictionary.
 
     Returns
     -------
     dict
-        ``chart.to_dict()``. The first chart of each :func:`chart_shape` in the process is
-        checked in full (an invalid one raises Altair's ``SchemaValidationError``); later
-        ones of that shape are serialised without the check, which gives the same
-        dictionary.
+        ``chart.to_dict()`` (a dictionary is returned as it is). The first chart of each
+        :func:`chart_shape` in the process is checked in full (an invalid one raises
+        ``jsonschema.ValidationError``); later ones of that shape are serialised without the
+        check, which gives the same dictionary.
     """
-    spec = chart.to_dict(validate=False)
+    spec = chart if isinstance(chart, dict) else chart.to_dict(validate=False)
     shape = chart_shape(spec)
     if shape not in _CHECKED:
         alt.Root.validate(spec)
@@ -179,8 +242,9 @@ class ChartPane:
         if on_click is not None:
             self._chart.observe(self._clicked, names="_vl_selections")
 
-    def show(self, chart: alt.TopLevelMixin | None) -> None:
-        """Display ``chart`` (or the placeholder for None)."""
+    def show(self, chart: alt.TopLevelMixin | dict | None) -> None:
+        """Display ``chart``, an Altair chart or a Vega-Lite dictionary (or the placeholder
+        for None)."""
         if chart is None:
             self.widget.children = [self._placeholder]
             return

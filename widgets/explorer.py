@@ -76,6 +76,7 @@ from rankfold.counting import refuse_unknown_keywords
 
 from . import formatting
 from .category_editor import CategoryEditor, StepsPanel
+from .chart_pane import as_altair
 from .comparison import ComparisonSection
 from .computation_view import ComputationSection
 from .export import ExportSection, code_snippet, coding_caption, save_chart, save_measures
@@ -616,7 +617,8 @@ class Explorer(widgets.VBox):
         altair.TopLevelMixin or None
             The chart of the current state, or None for ``'pairs'`` before a cell is chosen.
         """
-        return named_chart(self._rendered, name)
+        chart = named_chart(self._rendered, name)
+        return as_altair(chart) if isinstance(chart, dict) else chart
 
     def save_chart(self, name: str, path: str) -> str:
         """Save one of the charts (see :meth:`chart`) to ``path``.

@@ -24,6 +24,7 @@ import traitlets
 from rankfold import OrdinalTable, measure_label
 
 from . import formatting
+from .chart_pane import as_altair, specification
 from .named_charts import CHARTS, named_chart
 from .pickers import labelled
 from .table_mode import has_records
@@ -45,13 +46,14 @@ DEFAULT_FOLDER = "rankfold-exports"
 _HINT = re.compile(r"\b(click|clicking|hover|tap|drag)\b", re.IGNORECASE)
 
 
-def save_chart(chart: alt.TopLevelMixin, path: str | Path, caption: str | None = None) -> Path:
+def save_chart(chart: alt.TopLevelMixin | dict, path: str | Path,
+               caption: str | None = None) -> Path:
     """Save a chart; the format follows the file suffix.
 
     Parameters
     ----------
-    chart : altair chart
-        One of the explorer's charts (or any Altair chart).
+    chart : altair chart or dict
+        One of the explorer's charts (or any Altair chart or Vega-Lite dictionary).
     path : str or Path
         Ending in ``.html`` (a page that works offline: the Vega libraries are written into
         it), ``.json`` (the Vega-Lite specification), ``.png`` or ``.svg``. PNG and SVG are
@@ -81,6 +83,8 @@ def save_chart(chart: alt.TopLevelMixin, path: str | Path, caption: str | None =
                 f"Saving as {suffix.upper()} needs the vl-convert-python package "
                 "(pip install vl-convert-python); JSON works without it."
             ) from err
+    if isinstance(chart, dict) and suffix in ("html", "json"):
+        chart = as_altair(chart)
     if suffix == "html":
         chart.save(path, format="html", inline=True, embed_options={"actions": False})
     elif suffix == "json":
@@ -118,7 +122,7 @@ def _strip_hints(spec: object) -> object:
     return spec
 
 
-def static_spec(chart: alt.TopLevelMixin, caption: str | None = None) -> dict:
+def static_spec(chart: alt.TopLevelMixin | dict, caption: str | None = None) -> dict:
     """The chart's Vega-Lite specification for a still picture.
 
     Title phrases that address the live chart ("click a cell to see its pairs") are dropped
@@ -136,7 +140,7 @@ def static_spec(chart: alt.TopLevelMixin, caption: str | None = None) -> dict:
     dict
         A Vega-Lite specification (the data stay inline).
     """
-    spec = _strip_hints(chart.to_dict())
+    spec = _strip_hints(specification(chart))
     if not caption:
         return spec
     top = {k: spec.pop(k) for k in ("$schema", "config", "background", "padding", "autosize")

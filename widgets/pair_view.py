@@ -1,11 +1,14 @@
-"""The pair view: for one chosen cell, which cells are concordant, discordant or tied with it."""
+"""The pair view: for one chosen cell, which cells are concordant, discordant or tied with it.
+
+Redrawn after every change while its tab shows, so its Vega-Lite specification is written as a
+plain dictionary, like the heatmap's.
+"""
 
 from __future__ import annotations
 
 from collections.abc import Callable, Hashable
 from typing import TYPE_CHECKING
 
-import altair as alt
 import ipywidgets as widgets
 import pandas as pd
 
@@ -13,14 +16,14 @@ from rankfold import PairRegions
 from rankfold.pair_regions import REGIONS
 
 from . import formatting
-from .chart_pane import CLICK, ChartPane, building, inline_data
+from .chart_pane import SCHEMA, ChartPane, click_on, inline_values
 from .heatmap import CELL_HEIGHT, INKS, cell_width, grid_axes
 from .pickers import labelled
 
 if TYPE_CHECKING:
     from .render import Rendered
 
-__all__ = ["pair_chart", "rendered_pairs", "pair_table_html", "PairSection", "ink_for",
+__all__ = ["pair_spec", "rendered_pairs", "pair_table_html", "PairSection", "ink_for",
            "relative_luminance"]
 
 # The chart legend: concordant, discordant, tied (any tie), and the chosen cell itself.
@@ -77,9 +80,9 @@ def ink_for(colour: str) -> str:
     return "#ffffff" if on_white >= on_dark else "#1a1a1a"
 
 
-def pair_chart(
+def pair_spec(
     figures: pd.DataFrame, regions: PairRegions, row_name: str, col_name: str
-) -> alt.LayerChart:
+) -> dict:
     """The table's cells coloured by the kind of pair they form with the chosen cell.
 
     Parameters
@@ -93,8 +96,10 @@ def pair_chart(
 
     Returns
     -------
-    altair.LayerChart
-        Clicking a cell sets the point selection ``"cell"`` to its positions.
+    dict
+        A layered Vega-Lite specification (:func:`~rankfold.widgets.chart_pane.as_altair`
+        wraps it as an Altair chart). Clicking a cell sets the point selection ``"cell"`` to
+        its positions.
     """
     x, y = grid_axes(list(dict.fromkeys(figures["row"])), list(dict.fromkeys(figures["col"])),
                      row_name, col_name, margins=False)
@@ -108,31 +113,31 @@ def pair_chart(
         cell["ink"] = ink_for(_COLOURS[cell["kind"]])
     chosen = cells[regions.row * len(dict.fromkeys(figures["col"])) + regions.col]
     kinds = list(_COLOURS)
-    with building():
-        colour = alt.Color(field="kind", type="nominal", title="pair with the chosen cell",
-                           scale=alt.Scale(domain=kinds, range=[_COLOURS[k] for k in kinds]),
-                           legend=alt.Legend(orient="bottom"))
-        click = alt.selection_point(name=CLICK, fields=["row_position", "col_position"],
-                                    on="click")
-        rect = alt.Chart().mark_rect(stroke="#ffffff", strokeWidth=1, cursor="pointer").encode(
-            x=x, y=y, color=colour
-        ).add_params(click)
-        # The text is painted through "fill", a channel of its own: a second scale on "color"
-        # would be merged with the cells' one and paint the numbers in the cell's colour.
-        ink = alt.Fill(field="ink", type="nominal", legend=None,
-                       scale=alt.Scale(domain=list(INKS), range=list(INKS)))
-        numbers = alt.Chart().mark_text(fontSize=11).encode(
-            x=x, y=y, text=alt.Text(field="count", type="nominal"), fill=ink
-        )
-        return alt.LayerChart(
-            data=inline_data(cells),
-            layer=[rect, numbers],
-            width=alt.Step(cell_width(len(dict.fromkeys(figures["col"])))),
-            height=alt.Step(CELL_HEIGHT),
-            title=alt.Title(f"Pairs with a unit in ({chosen['row']}, {chosen['col']})",
-                            subtitle="numbers are units per cell; click another cell to move"),
-            background="#ffffff",
-        )
+    rect = {
+        "mark": {"type": "rect", "cursor": "pointer", "stroke": "#ffffff", "strokeWidth": 1},
+        "encoding": {"x": x, "y": y, "color": {
+            "field": "kind", "type": "nominal", "title": "pair with the chosen cell",
+            "scale": {"domain": kinds, "range": [_COLOURS[k] for k in kinds]},
+            "legend": {"orient": "bottom"}}},
+        "name": "cells",
+    }
+    # The text is painted through "fill", a channel of its own: a second scale on "color"
+    # would be merged with the cells' one and paint the numbers in the cell's colour.
+    numbers = {"mark": {"type": "text", "fontSize": 11}, "encoding": {
+        "x": x, "y": y, "text": {"field": "count", "type": "nominal"},
+        "fill": {"field": "ink", "type": "nominal", "legend": None,
+                 "scale": {"domain": list(INKS), "range": list(INKS)}}}}
+    return {
+        "$schema": SCHEMA,
+        "background": "#ffffff",
+        "data": inline_values(cells),
+        "layer": [rect, numbers],
+        "params": [click_on(["cells"])],
+        "width": {"step": cell_width(len(dict.fromkeys(figures["col"])))},
+        "height": {"step": CELL_HEIGHT},
+        "title": {"text": f"Pairs with a unit in ({chosen['row']}, {chosen['col']})",
+                  "subtitle": "numbers are units per cell; click another cell to move"},
+    }
 
 
 def pair_table_html(
@@ -176,8 +181,8 @@ def pair_table_html(
     )
 
 
-def rendered_pairs(rendered: Rendered) -> alt.LayerChart | None:
-    """The explorer's pair view of a rendered state: :func:`pair_chart` around its chosen
+def rendered_pairs(rendered: Rendered) -> dict | None:
+    """The explorer's pair view of a rendered state: :func:`pair_spec` around its chosen
     cell, or None while no cell of the table is chosen.
 
     Parameters
@@ -187,12 +192,13 @@ def rendered_pairs(rendered: Rendered) -> alt.LayerChart | None:
 
     Returns
     -------
-    altair.LayerChart or None
+    dict or None
+        A Vega-Lite specification.
     """
     if rendered.regions is None:
         return None
     table = rendered.table
-    return pair_chart(rendered.figures, rendered.regions, table.row_name, table.col_name)
+    return pair_spec(rendered.figures, rendered.regions, table.row_name, table.col_name)
 
 
 class PairSection:
