@@ -363,7 +363,7 @@ class Explorer(widgets.VBox):
                              can_redo=self._cursor < len(self._history) - 1)
             self._measures.value = measures_html(
                 rendered.table, rendered.measures, rendered.tests,
-                rendered.diagnostics.warnings, rendered.left_out,
+                rendered.diagnostics.warnings, rendered.left_out, slope=rendered.slope,
             )
             self._stale = set(range(len(self._sections)))
             self._show_sections()

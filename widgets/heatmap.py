@@ -141,8 +141,11 @@ def heatmap_spec(
     """
     if colour_by not in COLOUR_CHOICES:
         raise ValueError(f"colour_by must be one of {list(COLOUR_CHOICES)}; got {colour_by!r}.")
-    row_labels = [str(x) for x in dict.fromkeys(figures["row"])]
-    col_labels = [str(x) for x in dict.fromkeys(figures["col"])]
+    rows = [str(r) for r in figures["row"].tolist()]
+    cols = [str(c) for c in figures["col"].tolist()]
+    row_labels, col_labels = list(dict.fromkeys(rows)), list(dict.fromkeys(cols))
+    row_positions = figures["row_position"].to_numpy()
+    col_positions = figures["col_position"].to_numpy()
     x, y = grid_axes(row_labels, col_labels, row_name, col_name, margins=True)
     totals_col = _margin_label(col_labels)
     totals_row = _margin_label(row_labels)
@@ -158,15 +161,15 @@ def heatmap_spec(
         {"row": r, "col": c, "row_position": int(i), "col_position": int(j),
          "value": float(v) if ok else None, "label": _cell_text(v, colour_by),
          "ink": "#ffffff" if ok and abs(v) / largest > 0.6 else "#1a1a1a"}
-        for r, c, i, j, v, ok in zip(
-            map(str, figures["row"]), map(str, figures["col"]), figures["row_position"],
-            figures["col_position"], values, finite, strict=True)
+        for r, c, i, j, v, ok in zip(rows, cols, row_positions.tolist(), col_positions.tolist(),
+                                     values.tolist(), finite.tolist(), strict=True)
     ]
-    first_col = figures.drop_duplicates("row")
-    first_row = figures.drop_duplicates("col")
-    margins = [(r, totals_col, t) for r, t in zip(row_labels, first_col["row_total"], strict=True)]
-    margins += [(totals_row, c, t) for c, t in zip(col_labels, first_row["col_total"], strict=True)]
-    margins.append((totals_row, totals_col, float(first_col["row_total"].sum())))
+    row_totals, col_totals = np.zeros(len(row_labels)), np.zeros(len(col_labels))
+    row_totals[row_positions] = figures["row_total"].to_numpy(dtype=float)
+    col_totals[col_positions] = figures["col_total"].to_numpy(dtype=float)
+    margins = [(r, totals_col, t) for r, t in zip(row_labels, row_totals.tolist(), strict=True)]
+    margins += [(totals_row, c, t) for c, t in zip(col_labels, col_totals.tolist(), strict=True)]
+    margins.append((totals_row, totals_col, float(row_totals.sum())))
     cells += [{"row": r, "col": c, "label": formatting.amount(t), "ink": _TOTAL_INK}
               for r, c, t in margins]
     if colour_by in _DIVERGING:

@@ -115,6 +115,7 @@ def measures_html(
     warnings: Sequence[str],
     left_out: float,
     confidence: float = 0.95,
+    slope: pd.DataFrame | None = None,
 ) -> str:
     """The measures of the current table as an HTML panel.
 
@@ -132,6 +133,8 @@ def measures_html(
         Units left out by the explorer's exclusions.
     confidence : float
         Level of the intervals in ``measures``, for the column heading.
+    slope : pandas.DataFrame, optional
+        ``table.cumulative_logit()``, when computed already (else it is computed here).
 
     Returns
     -------
@@ -145,7 +148,7 @@ def measures_html(
     ordinal = [k for k in measures.index if k not in (*_NOMINAL, *_LATENT)]
     latent = [k for k in measures.index if k in _LATENT]
     nominal = [k for k in measures.index if k in _NOMINAL]
-    slope = table.cumulative_logit()
+    slope = table.cumulative_logit() if slope is None else slope
     shared, own = formatting.shared_note([*measures["note"], slope.loc["slope", "note"]])
     notes = dict(zip([*measures.index, "cumulative_logit"], own, strict=True))
     for key, check in _model_checks(tests, slope).items():

@@ -10,10 +10,12 @@ other way round.
 
 from __future__ import annotations
 
+from collections import OrderedDict
 from collections.abc import Hashable
 from dataclasses import dataclass, field
 from typing import Any
 
+import numpy as np
 import pandas as pd
 
 import rankfold
@@ -32,19 +34,29 @@ BASELINES = {"collected": "as collected", "previous": "before the last step"}
 
 
 class TableCache:
-    """Counts a DataFrame once per choice of variables and keeps the result.
+    """Counts a DataFrame once per choice of variables and keeps the result, and keeps the
+    numbers of the codings shown last.
 
     Parameters
     ----------
     data : pandas.DataFrame, a source of :func:`rankfold.table`, or OrdinalTable
         The user's frame or source; it is only read. A ready table is shown as it is (see
         :func:`~rankfold.widgets.table_mode.fixed_table`).
+
+    Notes
+    -----
+    A view choice (colour, chosen cell), undo, redo and picking a pair seen before come back
+    to a coding whose numbers were computed already: :meth:`numbers` keeps those of the last
+    :attr:`remembered` codings, so such changes cost no core computation.
     """
+
+    #: How many codings' numbers are kept (the most recently used ones).
+    remembered = 32
 
     def __init__(self, data: pd.DataFrame | OrdinalTable | Any) -> None:
         self.data = data
         self._tables: dict[tuple, OrdinalTable] = {}
-        self._measures: dict[tuple, pd.DataFrame] = {}
+        self._numbers: OrderedDict[tuple, dict[str, Any]] = OrderedDict()
 
     def collected(self, state: ExplorerState) -> OrdinalTable:
         """The table as collected (before any edit) for the state's variables."""
@@ -59,6 +71,44 @@ class TableCache:
                 order={name: list(labels) for name, labels in state.order if name in roles},
             )
         return self._tables[key]
+
+    def numbers(self, state: ExplorerState) -> dict[str, Any]:
+        """The tables and the numbers of the state's coding of its pair, computed once.
+
+        Parameters
+        ----------
+        state : ExplorerState
+
+        Returns
+        -------
+        dict
+            ``collected``, ``previous``, ``table``, ``measures``, ``tests``, ``diagnostics``,
+            ``figures`` and ``slope`` (``table.cumulative_logit()``), as in :class:`Rendered`.
+
+        Raises
+        ------
+        ValueError
+            If the coding cannot be applied or leaves an unusable table (nothing is kept).
+        """
+        key = (state.table_key, state.edits)
+        if key in self._numbers:
+            self._numbers.move_to_end(key)
+            return self._numbers[key]
+        collected = self.collected(state)
+        previous = table = collected
+        for edit in state.edits:
+            previous, table = table, edit.apply(table)
+        _check_usable(table)
+        numbers = {
+            "collected": collected, "previous": previous, "table": table,
+            "measures": table.measures(), "tests": table.tests(),
+            "diagnostics": table.diagnostics(), "figures": rankfold.cell_figures(table),
+            "slope": table.cumulative_logit(),
+        }
+        self._numbers[key] = numbers
+        while len(self._numbers) > self.remembered:
+            self._numbers.popitem(last=False)
+        return numbers
 
     def needs_count(self, state: ExplorerState) -> bool:
         """True if the state's variables must first be counted by another engine (slow)."""
@@ -80,6 +130,8 @@ class Rendered:
     diagnostics : Diagnostics
     figures : pandas.DataFrame
         :func:`rankfold.cell_figures` of the table.
+    slope : pandas.DataFrame
+        ``table.cumulative_logit()`` (the proportional-odds slope the measures panel shows).
     regions : PairRegions or None
         :func:`rankfold.pair_regions` of the chosen cell, if one is chosen and still exists.
     previous : OrdinalTable
@@ -98,6 +150,7 @@ class Rendered:
     tests: pd.DataFrame
     diagnostics: Diagnostics
     figures: pd.DataFrame
+    slope: pd.DataFrame
     regions: PairRegions | None
     previous: OrdinalTable
     left_out: float
@@ -166,9 +219,11 @@ class Rendered:
 
     def axis_totals(self, axis: str) -> list[tuple[Hashable, float]]:
         """Each category of ``axis`` (``'rows'`` or ``'cols'``) with its number of units."""
-        label, total = ("row", "row_total") if axis == "rows" else ("col", "col_total")
-        first = self.figures.drop_duplicates(label)
-        return list(zip(first[label], first[total].astype(float), strict=True))
+        which = "row" if axis == "rows" else "col"
+        labels = self.table.row_labels if axis == "rows" else self.table.col_labels
+        totals = np.zeros(len(labels))
+        totals[self.figures[f"{which}_position"].to_numpy()] = self.figures[f"{which}_total"]
+        return list(zip(labels, totals.tolist(), strict=True))
 
 
 def _check_usable(table: OrdinalTable) -> None:
@@ -207,12 +262,8 @@ def render(state: ExplorerState, cache: TableCache) -> Rendered:
         non-neighbours, a variable left with one category, no units left); the message says
         what and how to fix it.
     """
-    collected = cache.collected(state)
-    previous = table = collected
-    for edit in state.edits:
-        previous, table = table, edit.apply(table)
-    _check_usable(table)
-    measures = table.measures()
+    numbers = cache.numbers(state)
+    table = numbers["table"]
     regions = None
     if state.chosen_cell is not None:
         row, col = state.chosen_cell
@@ -220,16 +271,5 @@ def render(state: ExplorerState, cache: TableCache) -> Rendered:
             regions = rankfold.pair_regions(
                 table.counts.to_numpy(), table.row_labels.index(row), table.col_labels.index(col)
             )
-    return Rendered(
-        state=state,
-        collected=collected,
-        table=table,
-        measures=measures,
-        tests=table.tests(),
-        diagnostics=table.diagnostics(),
-        figures=rankfold.cell_figures(table),
-        regions=regions,
-        previous=previous,
-        left_out=collected.n - table.n,
-        source=cache,
-    )
+    return Rendered(state=state, regions=regions, left_out=numbers["collected"].n - table.n,
+                    source=cache, **numbers)
