@@ -83,7 +83,9 @@ class TableCache:
         -------
         dict
             ``collected``, ``previous``, ``table``, ``measures``, ``tests``, ``diagnostics``,
-            ``figures`` and ``slope`` (``table.cumulative_logit()``), as in :class:`Rendered`.
+            ``figures`` and ``slope`` (``table.cumulative_logit()``), as in :class:`Rendered`,
+            and ``_compared``, where :meth:`Rendered.compared` keeps its comparisons of this
+            coding.
 
         Raises
         ------
@@ -103,7 +105,7 @@ class TableCache:
             "collected": collected, "previous": previous, "table": table,
             "measures": table.measures(), "tests": table.tests(),
             "diagnostics": table.diagnostics(), "figures": rankfold.cell_figures(table),
-            "slope": table.cumulative_logit(),
+            "slope": table.cumulative_logit(), "_compared": {},
         }
         self._numbers[key] = numbers
         while len(self._numbers) > self.remembered:
