@@ -23,7 +23,7 @@ if TYPE_CHECKING:
     from .render import Rendered
 
 __all__ = ["heatmap_spec", "rendered_heatmap", "HeatmapSection", "grid_axes", "cell_width",
-           "TOTAL"]
+           "numbers_layer", "TOTAL"]
 
 TOTAL = "total"
 CELL_WIDTH = 78  # the widest a cell gets
@@ -97,6 +97,31 @@ def grid_axes(
     y = {"field": "row", "type": "nominal", "sort": rows, "title": row_name,
          "axis": {"labelLimit": _LABEL_LIMIT}}
     return x, y
+
+
+def numbers_layer(x: dict, y: dict, field: str) -> dict:
+    """The layer that prints each cell's text, in the colour named in its datum's ``ink``.
+
+    The text is painted through ``fill``, a channel of its own: a second scale on ``color``
+    would be merged with the cells' one (Vega-Lite shares a channel's scale across layers) and
+    paint the numbers in the cells' colours.
+
+    Parameters
+    ----------
+    x, y : dict
+        The grid's channels (:func:`grid_axes`).
+    field : str
+        The data field holding the text.
+
+    Returns
+    -------
+    dict
+        A Vega-Lite text layer; its inks are :data:`INKS`.
+    """
+    return {"mark": {"type": "text", "fontSize": 11}, "encoding": {
+        "x": x, "y": y, "text": {"field": field, "type": "nominal"},
+        "fill": {"field": "ink", "type": "nominal", "legend": None,
+                 "scale": {"domain": list(INKS), "range": list(INKS)}}}}
 
 
 def heatmap_spec(
@@ -188,13 +213,7 @@ def heatmap_spec(
         "name": view,
         "transform": [{"filter": f"datum.ink != '{_TOTAL_INK}'"}],
     }
-    # The text is painted through "fill", a channel of its own: a second scale on
-    # "color" would be merged with the cells' one (Vega-Lite shares it across layers).
-    text = {"mark": {"type": "text", "fontSize": 11}, "encoding": {
-        "x": x, "y": y, "text": {"field": "label", "type": "nominal"},
-        "fill": {"field": "ink", "type": "nominal", "legend": None,
-                 "scale": {"domain": list(INKS), "range": list(INKS)}}}}
-    layers = [rect, text]
+    layers = [rect, numbers_layer(x, y, "label")]
     if chosen is not None:
         layers.append({
             "mark": {"type": "rect", "fill": None, "stroke": "#111111", "strokeWidth": 3},

@@ -17,7 +17,7 @@ from rankfold.pair_regions import REGIONS
 
 from . import formatting
 from .chart_pane import SCHEMA, ChartPane, click_on, inline_values
-from .heatmap import CELL_HEIGHT, INKS, cell_width, grid_axes
+from .heatmap import CELL_HEIGHT, cell_width, grid_axes, numbers_layer
 from .pickers import labelled
 
 if TYPE_CHECKING:
@@ -121,17 +121,11 @@ def pair_spec(
             "legend": {"orient": "bottom"}}},
         "name": "cells",
     }
-    # The text is painted through "fill", a channel of its own: a second scale on "color"
-    # would be merged with the cells' one and paint the numbers in the cell's colour.
-    numbers = {"mark": {"type": "text", "fontSize": 11}, "encoding": {
-        "x": x, "y": y, "text": {"field": "count", "type": "nominal"},
-        "fill": {"field": "ink", "type": "nominal", "legend": None,
-                 "scale": {"domain": list(INKS), "range": list(INKS)}}}}
     return {
         "$schema": SCHEMA,
         "background": "#ffffff",
         "data": inline_values(cells),
-        "layer": [rect, numbers],
+        "layer": [rect, numbers_layer(x, y, "count")],
         "params": [click_on(["cells"])],
         "width": {"step": cell_width(len(dict.fromkeys(figures["col"])))},
         "height": {"step": CELL_HEIGHT},
@@ -182,19 +176,9 @@ def pair_table_html(
 
 
 def rendered_pairs(rendered: Rendered) -> dict | None:
-    """The explorer's pair view of a rendered state: :func:`pair_spec` around its chosen
-    cell, or None while no cell of the table is chosen.
-
-    Parameters
-    ----------
-    rendered : Rendered
-        See :class:`rankfold.widgets.render.Rendered`.
-
-    Returns
-    -------
-    dict or None
-        A Vega-Lite specification.
-    """
+    """The explorer's pair view of ``rendered`` (the numbers of one state, a
+    :class:`~rankfold.widgets.render.Rendered`): the Vega-Lite dictionary of :func:`pair_spec`
+    around the state's chosen cell, or None while no cell of its table is chosen."""
     if rendered.regions is None:
         return None
     table = rendered.table
