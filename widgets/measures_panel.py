@@ -98,7 +98,7 @@ def _title(key: str) -> str:
     return f' title="{formatting.text(help_text)}"' if help_text else ""
 
 
-def _measure_row(key: str, record: pd.Series, label: str, note: str) -> str:
+def _measure_row(key: str, record: pd.Series | tuple, label: str, note: str) -> str:
     return (
         f'<tr data-measure="{key}"{_title(key)}><th scope="row">{formatting.text(label)}</th>'
         f'<td class="rankfold-estimate" data-measure="{key}">{formatting.estimate(record.estimate)}'
@@ -154,9 +154,11 @@ def measures_html(
     for key, check in _model_checks(tests, slope).items():
         notes[key] = "; ".join(x for x in (notes[key], check) if x)
 
+    records = dict(zip(measures.index, measures.itertuples(index=False), strict=True))
+
     def rows(keys: list[str]) -> str:
         return "".join(
-            _measure_row(k, measures.loc[k], measure_label(k, table.row_name, table.col_name),
+            _measure_row(k, records[k], measure_label(k, table.row_name, table.col_name),
                          notes[k])
             for k in keys
         )

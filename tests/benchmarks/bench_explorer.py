@@ -13,9 +13,10 @@ million record frame takes about 1.5 GB while it is made). For each size it prin
     methods, the Heatmap tab showing): the table rebuilt from the cached count, the numbers,
     the controls, the measures panel and the heatmap's specification handed to the page. A
     merge or an exclusion is timed as a new coding (the explorer first forgets the numbers of
-    every coding with a step, so they are computed); a colour choice, an undo, a reset and
-    picking a variable counted before come back to numbers computed before (the explorer
-    keeps those of the last 32 codings; beyond, such a change costs as much as a new coding).
+    the pair's codings with a step, so they are computed); a colour choice, an undo, a reset
+    and picking a variable counted (and shown with that coding) before come back to numbers
+    computed before (the explorer keeps those of the last 32 codings; beyond, such a change
+    costs as much as a new coding).
 
 Each figure is the median and the fastest of many runs, with the median's ratio to somersd
 and the goal of issue 18 (15 ms). The data are invented (``rankfold.demo.transit_survey``,
@@ -54,10 +55,11 @@ def line(label: str, seconds: list[float], somersd: float, goal: bool = True) ->
 
 
 def forget_codings(explorer: rankfold.widgets.Explorer) -> None:
-    """Make the explorer forget the numbers of every coding with a step, so that the next
-    merge or exclusion is a new coding (the tables as collected stay remembered)."""
+    """Make the explorer forget the numbers of every coding of the pair (ROW, COL) with a step,
+    so that the next merge or exclusion is a new coding (the table as collected and the other
+    pair stay remembered)."""
     numbers = getattr(explorer._cache, "_numbers", None)  # absent before that memory existed
-    for key in [key for key in numbers or () if key[1]]:
+    for key in [key for key in numbers or () if key[0][:2] == (ROW, COL) and key[1]]:
         del numbers[key]
 
 
