@@ -84,13 +84,19 @@ def one_size(records: int) -> None:
     explorer.set_variables(row=OTHER)  # count the second pair once: picking it is a change
     explorer.set_variables(row=ROW)
     collected = explorer.table
-    coded = collected.exclude("cols", ["no answer"]).merge("rows", [["10–20 km", "over 20 km"]])
+
+    def coded() -> rankfold.OrdinalTable:  # a new table each time: nothing kept from before
+        return collected.exclude("cols", ["no answer"]).merge("rows", [["10–20 km",
+                                                                        "over 20 km"]])
+
+    counts = coded().counts.to_numpy()
     somersd = statistics.median(
-        timed(lambda: scipy.stats.somersd(coded.counts.to_numpy())) for _ in range(200))
+        timed(lambda: scipy.stats.somersd(counts)) for _ in range(200))
     print(f"(b) outside baseline: scipy.stats.somersd on the current table, median "
           f"{somersd * 1e3:.3f} ms")
-    line("the core's numbers of a new coding", [timed(lambda: core_numbers(coded))
-                                                 for _ in range(ROUNDS)], somersd, goal=False)
+    tables = [coded() for _ in range(ROUNDS)]
+    line("the core's numbers of a new coding", [timed(lambda t=t: core_numbers(t))
+                                                 for t in tables], somersd, goal=False)
 
     print("(c) one change through the explorer widget (Heatmap tab showing)")
     # each round's undo takes the colour back to counts, so every choice below is a change
