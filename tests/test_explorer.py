@@ -12,7 +12,7 @@ import pandas as pd
 import pytest
 
 import rankfold
-from rankfold.widgets import render as render_module
+from rankfold.widgets import heatmap as heatmap_module
 
 ROW, COL = "trip_length", "service_rating"
 
@@ -392,7 +392,7 @@ def test_an_unexpected_failure_is_a_message_not_a_traceback(ex, monkeypatch):
     def broken(*args, **kwargs):
         raise RuntimeError("drawing failed")
 
-    monkeypatch.setattr(render_module, "heatmap_chart", broken)
+    monkeypatch.setattr(heatmap_module, "heatmap_spec", broken)
     one(ex, "rankfold-colour-by").value = "row_percent"
     assert "Unexpected problem (RuntimeError: drawing failed)" in message(ex)
     assert ex.state.colour_by == "count"
@@ -485,6 +485,7 @@ def test_heatmap_legends_draw_no_svg_gradient(df):
     for colour_by in ("count", "pair_contribution"):
         ex.set_view(colour_by=colour_by)
         for chart in (ex.chart("heatmap"), level_heatmaps(ex.table, colour_by)):
-            svg = vl_convert.vegalite_to_svg(chart.to_dict())
+            spec = chart if isinstance(chart, dict) else chart.to_dict()
+            svg = vl_convert.vegalite_to_svg(spec)
             assert "<rect" in svg or "<path" in svg
             assert "linearGradient" not in svg

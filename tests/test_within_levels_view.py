@@ -32,10 +32,10 @@ def controlled(visits):
     return rankfold.table(visits, ROW, COL, control=CONTROL)
 
 
-def panels(chart) -> list[dict]:
+def panels(spec: dict) -> list[dict]:
     """Per level: title, the cells' (row, col, value) and the colour scale domain."""
     out = []
-    for panel in chart.to_dict()["concat"]:
+    for panel in spec["concat"]:
         values = panel["data"]["values"]
         values = json.loads(values) if isinstance(values, str) else values
         rect = next(part for part in panel["layer"] if part["mark"]["type"] == "rect")
@@ -144,12 +144,12 @@ def test_the_grid_puts_no_more_heatmaps_side_by_side_than_fit(controlled):
     from rankfold.widgets.heatmap import cell_width
     from rankfold.widgets.within_levels_view import GRID_WIDTH
 
-    wide = level_heatmaps(controlled, "count").to_dict()  # 5 satisfaction columns + totals
+    wide = level_heatmaps(controlled, "count")  # 5 satisfaction columns + totals
     assert cell_width(6) * 6 * 2 > GRID_WIDTH and wide["columns"] == 1
     narrow_table = controlled.merge("cols", [["very unhappy", "unhappy", "neutral"],
                                           ["happy", "very happy"]])
-    narrow = level_heatmaps(narrow_table, "count").to_dict()  # 2 columns + totals
+    narrow = level_heatmaps(narrow_table, "count")  # 2 columns + totals
     # two heatmaps of 3 cells and their row labels are wider than the grid: one per line
     assert (cell_width(3) * 3 + 120) * 2 > GRID_WIDTH
     assert narrow["columns"] == 1 and len(narrow["concat"]) == 3
-    assert level_heatmaps(narrow_table, "count", columns=2).to_dict()["columns"] == 2
+    assert level_heatmaps(narrow_table, "count", columns=2)["columns"] == 2

@@ -102,6 +102,8 @@ class CategoryEditor:
         self._flag_box = widgets.VBox([self._warning, self._leave_flagged])
         self._left_out = widgets.VBox()
         self._left_out.add_class("rankfold-left-out")
+        self._left_out_heading = widgets.HTML("<span class='rankfold-hint'>left out:</span>")
+        self._left_out_lines: dict[tuple[str, Hashable], widgets.HBox] = {}  # made once each
         self.widget = widgets.VBox([self._title])
         self.widget.add_class(f"rankfold-editor-{axis}")
         self.widget.add_class("rankfold-editor")
@@ -145,14 +147,21 @@ class CategoryEditor:
             children.append(self._flag_box)
         left_out = rendered.state.left_out(self._axis)
         if left_out:
-            self._left_out.children = [
-                widgets.HTML("<span class='rankfold-hint'>left out:</span>"),
-                *(self._left_out_line(label) for label in left_out)]
+            lines = [self._left_out_heading, *(self._left_out_line(label) for label in left_out)]
+            if tuple(lines) != self._left_out.children:
+                self._left_out.children = lines
             children.append(self._left_out)
         if tuple(children) != self.widget.children:
             self.widget.children = children
 
     def _left_out_line(self, label: Hashable) -> widgets.HBox:
+        """The line of a left-out category with its bring-back button (made on first use)."""
+        key = (self._variable, label)
+        if key not in self._left_out_lines:
+            self._left_out_lines[key] = self._new_left_out_line(label)
+        return self._left_out_lines[key]
+
+    def _new_left_out_line(self, label: Hashable) -> widgets.HBox:
         back = _small(widgets.Button(description="bring back"), "rankfold-bring-back",
                       f"Count the units in {label} again")
         back.on_click(lambda _: self.bring_back(label))

@@ -1,5 +1,8 @@
 """The comparison view: each measure before and after coding, with the paired change.
 
+Redrawn after every change while its tab shows, so its Vega-Lite specification is written as a
+plain dictionary, like the heatmap's.
+
 Two baselines: the table as collected, and the previous step (the table before the last step
 of the shown pair). The change between two codings of one collected table has a paired
 standard error (:func:`rankfold.compare_measures` given two tables), shown with its interval
@@ -11,26 +14,20 @@ from __future__ import annotations
 from collections.abc import Callable
 from typing import TYPE_CHECKING
 
-import altair as alt
 import ipywidgets as widgets
 import pandas as pd
 
 from rankfold import measure_label
 
 from . import formatting
-from .chart_pane import ChartPane, building, inline_data
+from .chart_pane import SCHEMA, ChartPane, inline_values
+from .render import BASELINES, COMPARED
 
 if TYPE_CHECKING:
     from .render import Rendered
 
-__all__ = ["comparison_chart", "comparison_html", "ComparisonSection", "COMPARED", "BASELINES",
-           "CHOICE_CAUTION"]
-
-#: The measures compared, in display order.
-COMPARED = ("gamma", "somers_d_col_given_row", "somers_d_row_given_col", "somers_d_symmetric",
-            "tau_b", "tau_c", "spearman_rho")
-#: What the current coding can be compared against: key -> name shown for the earlier table.
-BASELINES = {"collected": "as collected", "previous": "before the last step"}
+__all__ = ["comparison_spec", "rendered_comparison", "comparison_html", "ComparisonSection",
+           "COMPARED", "BASELINES", "CHOICE_CAUTION"]
 _CURRENT = "current coding"
 _COLOURS = ("#8c8c8c", "#3a78b5")
 
@@ -43,8 +40,8 @@ CHOICE_CAUTION = (
 )
 
 
-def comparison_chart(comparison: pd.DataFrame, row_name: str, col_name: str,
-                     baseline: str = "collected") -> alt.VConcatChart:
+def comparison_spec(comparison: pd.DataFrame, row_name: str, col_name: str,
+                    baseline: str = "collected") -> dict:
     """Estimates with intervals for both codings, and the change with its paired interval.
 
     Parameters
@@ -58,9 +55,10 @@ def comparison_chart(comparison: pd.DataFrame, row_name: str, col_name: str,
 
     Returns
     -------
-    altair.VConcatChart
-        Top: each measure before and after; bottom: the change with its interval (the paired
-        delta method; none is drawn where it is undefined).
+    dict
+        A Vega-Lite specification (:func:`~rankfold.widgets.chart_pane.as_altair` wraps it as
+        an Altair chart). Top: each measure before and after; bottom: the change with its
+        interval (the paired delta method; none is drawn where it is undefined).
     """
     versions = {"before": BASELINES[baseline], "after": _CURRENT}
     points, changes = [], []
@@ -83,47 +81,64 @@ def comparison_chart(comparison: pd.DataFrame, row_name: str, col_name: str,
                 "high": None if high is None or pd.isna(high) else float(high),
             })
     order = [measure_label(k, row_name, col_name) for k in comparison.index]
-    with building():
-        y = alt.Y(field="measure", type="nominal", sort=order, title=None,
-                  axis=alt.Axis(labelLimit=200))
-        offset = alt.YOffset(field="version", type="nominal", sort=list(versions.values()))
-        colour = alt.Color(field="version", type="nominal", title=None,
-                           scale=alt.Scale(domain=list(versions.values()), range=list(_COLOURS)),
-                           legend=alt.Legend(orient="bottom"))
-        x_scale = alt.Scale(domain=[-1, 1])
-        zero = alt.Chart().mark_rule(color="#666666", strokeDash=[3, 3]).encode(
-            x=alt.datum(0, type="quantitative"))
-        bars = alt.Chart().mark_rule(strokeWidth=2).encode(
-            y=y, yOffset=offset, color=colour,
-            x=alt.X(field="low", type="quantitative", scale=x_scale,
-                    title="estimate with confidence interval"),
-            x2=alt.X2(field="high"),
-        )
-        dots = alt.Chart().mark_point(filled=True, size=60).encode(
-            y=y, yOffset=offset, color=colour,
-            x=alt.X(field="estimate", type="quantitative", scale=x_scale),
-        )
-        estimates = alt.LayerChart(
-            data=inline_data(points), layer=[zero, bars, dots], width=320,
-            height=alt.Step(14),
-            title=alt.Title(f"{BASELINES[baseline].capitalize()} and under the current coding",
-                            subtitle="the same units (fewer after exclusions)"),
-        )
-        change_bars = alt.Chart().mark_rule(strokeWidth=2, color="#b5543a").encode(
-            y=y, x=alt.X(field="low", type="quantitative",
-                         title="change (current − earlier) with its paired interval"),
-            x2=alt.X2(field="high"),
-        )
-        change_dots = alt.Chart().mark_point(filled=True, size=60, color="#b5543a").encode(
-            y=y, x=alt.X(field="change", type="quantitative"))
-        change = alt.LayerChart(
-            data=inline_data(changes), layer=[zero, change_bars, change_dots], width=320,
-            height=alt.Step(14),
-            title=alt.Title("The change and its interval",
-                            subtitle="from the shared units (paired), not from the two "
-                                     "intervals above"),
-        )
-        return alt.VConcatChart(vconcat=[estimates, change], background="#ffffff")
+    y = {"field": "measure", "type": "nominal", "sort": order, "title": None,
+         "axis": {"labelLimit": 200}}
+    offset = {"field": "version", "type": "nominal", "sort": list(versions.values())}
+    colour = {"field": "version", "type": "nominal", "title": None,
+              "scale": {"domain": list(versions.values()), "range": list(_COLOURS)},
+              "legend": {"orient": "bottom"}}
+    x_scale = {"domain": [-1, 1]}
+    zero = {"mark": {"type": "rule", "color": "#666666", "strokeDash": [3, 3]},
+            "encoding": {"x": {"type": "quantitative", "datum": 0}}}
+    bars = {"mark": {"type": "rule", "strokeWidth": 2}, "encoding": {
+        "y": y, "yOffset": offset, "color": colour,
+        "x": {"field": "low", "type": "quantitative", "scale": x_scale,
+              "title": "estimate with confidence interval"},
+        "x2": {"field": "high"}}}
+    dots = {"mark": {"type": "point", "filled": True, "size": 60}, "encoding": {
+        "y": y, "yOffset": offset, "color": colour,
+        "x": {"field": "estimate", "type": "quantitative", "scale": x_scale}}}
+    estimates = {
+        "data": inline_values(points), "layer": [zero, bars, dots], "width": 320,
+        "height": {"step": 14},
+        "title": {"text": f"{BASELINES[baseline].capitalize()} and under the current coding",
+                  "subtitle": "the same units (fewer after exclusions)"},
+    }
+    change_bars = {"mark": {"type": "rule", "color": "#b5543a", "strokeWidth": 2}, "encoding": {
+        "y": y, "x": {"field": "low", "type": "quantitative",
+                      "title": "change (current − earlier) with its paired interval"},
+        "x2": {"field": "high"}}}
+    change_dots = {"mark": {"type": "point", "color": "#b5543a", "filled": True, "size": 60},
+                   "encoding": {"y": y, "x": {"field": "change", "type": "quantitative"}}}
+    change = {
+        "data": inline_values(changes), "layer": [zero, change_bars, change_dots], "width": 320,
+        "height": {"step": 14},
+        "title": {"text": "The change and its interval",
+                  "subtitle": "from the shared units (paired), not from the two intervals "
+                              "above"},
+    }
+    return {"$schema": SCHEMA, "background": "#ffffff", "vconcat": [estimates, change]}
+
+
+def rendered_comparison(rendered: Rendered, baseline: str = "collected") -> dict:
+    """The explorer's comparison chart of a rendered state: :func:`comparison_spec` of
+    :meth:`~rankfold.widgets.render.Rendered.compared` against ``baseline``.
+
+    Parameters
+    ----------
+    rendered : Rendered
+        See :class:`rankfold.widgets.render.Rendered`.
+    baseline : {'collected', 'previous'}
+        The table as collected, or the table before the last step.
+
+    Returns
+    -------
+    dict
+        A Vega-Lite specification.
+    """
+    table = rendered.table
+    return comparison_spec(rendered.compared(baseline), table.row_name, table.col_name,
+                            baseline)
 
 
 def comparison_html(comparison: pd.DataFrame, row_name: str, col_name: str,
@@ -244,7 +259,6 @@ class ComparisonSection:
         baseline = self.baseline.value
         table = rendered.table
         self._which.value = f"<p>{formatting.text(rendered.baseline_description(baseline))}</p>"
-        self._pane.show(rendered.chart("comparison" if baseline == "collected"
-                                       else "comparison_previous"))
+        self._pane.show(rendered_comparison(rendered, baseline))
         self._table.value = comparison_html(rendered.compared(baseline), table.row_name,
                                             table.col_name, baseline)

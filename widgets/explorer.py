@@ -76,11 +76,13 @@ from rankfold.counting import refuse_unknown_keywords
 
 from . import formatting
 from .category_editor import CategoryEditor, StepsPanel
+from .chart_pane import as_altair
 from .comparison import ComparisonSection
 from .computation_view import ComputationSection
 from .export import ExportSection, code_snippet, coding_caption, save_chart, save_measures
 from .heatmap import HeatmapSection
 from .measures_panel import MeasuresHelp, measures_html
+from .named_charts import named_chart
 from .overview_view import AllPairsSection
 from .pair_view import PairSection
 from .pickers import VariablePickers, holds_two_values
@@ -318,7 +320,10 @@ class Explorer(widgets.VBox):
         text = str(err) if expected else (
             f"Unexpected problem ({type(err).__name__}: {err}); nothing was changed.")
         if shown is not None:
-            self._show(shown)  # puts back controls a refused change had moved
+            try:
+                self._show(shown)  # puts back controls a refused change had moved
+            except Exception:  # noqa: BLE001, S110 - the message below says what went wrong
+                pass
         self._notify(text, error=True)
 
     def _counted(self, change: Callable[[ExplorerState], ExplorerState],
@@ -358,7 +363,7 @@ class Explorer(widgets.VBox):
                              can_redo=self._cursor < len(self._history) - 1)
             self._measures.value = measures_html(
                 rendered.table, rendered.measures, rendered.tests,
-                rendered.diagnostics.warnings, rendered.left_out,
+                rendered.diagnostics.warnings, rendered.left_out, slope=rendered.slope,
             )
             self._stale = set(range(len(self._sections)))
             self._show_sections()
@@ -378,12 +383,12 @@ class Explorer(widgets.VBox):
         """Draw the visible section; hidden ones are drawn when their tab is opened."""
         index = self._tabs.selected_index or 0
         if index in self._stale:
-            self._stale.discard(index)
             was_syncing, self._syncing = self._syncing, True
             try:
                 self._sections[index].show(self._rendered)
             finally:
                 self._syncing = was_syncing
+            self._stale.discard(index)
 
     # ------------------------------------------------------------------ scripting API
     @property
@@ -610,9 +615,10 @@ class Explorer(widgets.VBox):
         Returns
         -------
         altair.TopLevelMixin or None
-            The chart as last drawn, or None for ``'pairs'`` before a cell is chosen.
+            The chart of the current state, or None for ``'pairs'`` before a cell is chosen.
         """
-        return self._rendered.chart(name)
+        chart = named_chart(self._rendered, name)
+        return as_altair(chart) if isinstance(chart, dict) else chart
 
     def save_chart(self, name: str, path: str) -> str:
         """Save one of the charts (see :meth:`chart`) to ``path``.
@@ -635,7 +641,7 @@ class Explorer(widgets.VBox):
         ValueError
             For ``'pairs'`` before a cell is chosen.
         """
-        chart = self._rendered.chart(name)
+        chart = named_chart(self._rendered, name)
         if chart is None:
             raise ValueError("There is no pair view yet: choose a cell first (set_view).")
         return str(save_chart(chart, path, coding_caption(self.table)))

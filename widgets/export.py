@@ -24,6 +24,8 @@ import traitlets
 from rankfold import OrdinalTable, measure_label
 
 from . import formatting
+from .chart_pane import as_altair, specification
+from .named_charts import CHARTS, named_chart
 from .pickers import labelled
 from .table_mode import has_records
 
@@ -40,20 +42,18 @@ CHART_FORMATS = ("html", "json", "png", "svg")
 TABLE_FORMATS = {"csv": ".csv", "markdown": ".md", "latex": ".tex"}
 #: Where the Export tab writes, relative to the kernel's working directory.
 DEFAULT_FOLDER = "rankfold-exports"
-_CHART_NAMES = {"heatmap": "heatmap", "pairs": "pair view",  # render.CHARTS
-                "comparison": "comparison with the table as collected",
-                "comparison_previous": "comparison with the previous step"}
 #: Words that mark a phrase of a chart title as a hint for the live chart.
 _HINT = re.compile(r"\b(click|clicking|hover|tap|drag)\b", re.IGNORECASE)
 
 
-def save_chart(chart: alt.TopLevelMixin, path: str | Path, caption: str | None = None) -> Path:
+def save_chart(chart: alt.TopLevelMixin | dict, path: str | Path,
+               caption: str | None = None) -> Path:
     """Save a chart; the format follows the file suffix.
 
     Parameters
     ----------
-    chart : altair chart
-        One of the explorer's charts (or any Altair chart).
+    chart : altair chart or dict
+        One of the explorer's charts (or any Altair chart or Vega-Lite dictionary).
     path : str or Path
         Ending in ``.html`` (a page that works offline: the Vega libraries are written into
         it), ``.json`` (the Vega-Lite specification), ``.png`` or ``.svg``. PNG and SVG are
@@ -83,6 +83,8 @@ def save_chart(chart: alt.TopLevelMixin, path: str | Path, caption: str | None =
                 f"Saving as {suffix.upper()} needs the vl-convert-python package "
                 "(pip install vl-convert-python); JSON works without it."
             ) from err
+    if isinstance(chart, dict) and suffix in ("html", "json"):
+        chart = as_altair(chart)
     if suffix == "html":
         chart.save(path, format="html", inline=True, embed_options={"actions": False})
     elif suffix == "json":
@@ -120,7 +122,7 @@ def _strip_hints(spec: object) -> object:
     return spec
 
 
-def static_spec(chart: alt.TopLevelMixin, caption: str | None = None) -> dict:
+def static_spec(chart: alt.TopLevelMixin | dict, caption: str | None = None) -> dict:
     """The chart's Vega-Lite specification for a still picture.
 
     Title phrases that address the live chart ("click a cell to see its pairs") are dropped
@@ -138,7 +140,7 @@ def static_spec(chart: alt.TopLevelMixin, caption: str | None = None) -> dict:
     dict
         A Vega-Lite specification (the data stay inline).
     """
-    spec = _strip_hints(chart.to_dict())
+    spec = _strip_hints(specification(chart))
     if not caption:
         return spec
     top = {k: spec.pop(k) for k in ("$schema", "config", "background", "padding", "autosize")
@@ -421,7 +423,7 @@ class ExportSection:
         self._notify = notify
         self._rendered = None
         wide = widgets.Layout(width="auto", max_width="100%")
-        self._chart = widgets.Dropdown(options=[(v, k) for k, v in _CHART_NAMES.items()],
+        self._chart = widgets.Dropdown(options=[(v[0], k) for k, v in CHARTS.items()],
                                        description="chart", layout=wide,
                                        tooltip="Which chart the buttons save")
         self._chart.add_class("rankfold-export-chart")
@@ -528,7 +530,7 @@ class ExportSection:
     def _saver(self, fmt: str) -> Callable:
         def save(_) -> None:
             name = self._chart.value
-            chart = self._rendered.chart(name)
+            chart = named_chart(self._rendered, name)
             if chart is None:
                 self._notify("There is no pair view to save yet: choose a cell first.", error=True)
                 return
@@ -541,7 +543,7 @@ class ExportSection:
             except (ValueError, OSError) as err:
                 self._notify(f"Could not save the chart: {err}", error=True)
                 return
-            self._notify(f"Saved the {_CHART_NAMES[name]} to {written}")
+            self._notify(f"Saved the {CHARTS[name][0]} to {written}")
 
         return save
 

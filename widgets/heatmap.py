@@ -1,4 +1,9 @@
-"""The heatmap of the current table: cells coloured by a chosen quantity, values printed."""
+"""The heatmap of the current table: cells coloured by a chosen quantity, values printed.
+
+The heatmap is redrawn after every change, so its Vega-Lite specification is written here as a
+plain dictionary (building it through Altair's objects costs more than the whole change is
+allowed to); :func:`~rankfold.widgets.chart_pane.specification` checks it against the schema.
+"""
 
 from __future__ import annotations
 
@@ -6,19 +11,19 @@ import math
 from collections.abc import Callable, Sequence
 from typing import TYPE_CHECKING
 
-import altair as alt
 import ipywidgets as widgets
 import numpy as np
 import pandas as pd
 
 from . import formatting
-from .chart_pane import CLICK, ChartPane, building, inline_data
+from .chart_pane import SCHEMA, ChartPane, click_on, inline_values
 from .state import COLOUR_CHOICES
 
 if TYPE_CHECKING:
     from .render import Rendered
 
-__all__ = ["heatmap_chart", "HeatmapSection", "grid_axes", "cell_width", "TOTAL"]
+__all__ = ["heatmap_spec", "rendered_heatmap", "HeatmapSection", "grid_axes", "cell_width",
+           "numbers_layer", "TOTAL"]
 
 TOTAL = "total"
 CELL_WIDTH = 78  # the widest a cell gets
@@ -62,7 +67,7 @@ def cell_width(columns: int) -> int:
 
 def grid_axes(
     row_labels: Sequence, col_labels: Sequence, row_name: str, col_name: str, margins: bool
-) -> tuple[alt.X, alt.Y]:
+) -> tuple[dict, dict]:
     """Nominal x and y channels that keep the categories in their order.
 
     Parameters
@@ -76,8 +81,8 @@ def grid_axes(
 
     Returns
     -------
-    (alt.X, alt.Y)
-        Channels on the fields ``col`` and ``row``.
+    (dict, dict)
+        Vega-Lite ``x`` and ``y`` channels on the fields ``col`` and ``row``.
     """
     rows = [str(x) for x in row_labels]
     cols = [str(x) for x in col_labels]
@@ -86,18 +91,40 @@ def grid_axes(
         cols.append(_margin_label(cols))
     # labels wider than a cell (about 6 px a character) are turned so they do not overlap
     fits = max(map(len, cols), default=0) * 6 <= cell_width(len(cols)) - 4
-    with building():
-        x = alt.X(
-            field="col", type="nominal", sort=cols, title=col_name,
-            axis=alt.Axis(orient="top", labelAngle=0 if fits else -40, labelLimit=110,
-                          labelAlign="center" if fits else "left"),
-        )
-        y = alt.Y(field="row", type="nominal", sort=rows, title=row_name,
-                  axis=alt.Axis(labelLimit=_LABEL_LIMIT))
+    x = {"field": "col", "type": "nominal", "sort": cols, "title": col_name,
+         "axis": {"orient": "top", "labelAngle": 0 if fits else -40, "labelLimit": 110,
+                  "labelAlign": "center" if fits else "left"}}
+    y = {"field": "row", "type": "nominal", "sort": rows, "title": row_name,
+         "axis": {"labelLimit": _LABEL_LIMIT}}
     return x, y
 
 
-def heatmap_chart(
+def numbers_layer(x: dict, y: dict, field: str) -> dict:
+    """The layer that prints each cell's text, in the colour named in its datum's ``ink``.
+
+    The text is painted through ``fill``, a channel of its own: a second scale on ``color``
+    would be merged with the cells' one (Vega-Lite shares a channel's scale across layers) and
+    paint the numbers in the cells' colours.
+
+    Parameters
+    ----------
+    x, y : dict
+        The grid's channels (:func:`grid_axes`).
+    field : str
+        The data field holding the text.
+
+    Returns
+    -------
+    dict
+        A Vega-Lite text layer; its inks are :data:`INKS`.
+    """
+    return {"mark": {"type": "text", "fontSize": 11}, "encoding": {
+        "x": x, "y": y, "text": {"field": field, "type": "nominal"},
+        "fill": {"field": "ink", "type": "nominal", "legend": None,
+                 "scale": {"domain": list(INKS), "range": list(INKS)}}}}
+
+
+def heatmap_spec(
     figures: pd.DataFrame,
     colour_by: str,
     row_name: str,
@@ -105,7 +132,8 @@ def heatmap_chart(
     chosen: tuple[int, int] | None = None,
     scale_max: float | None = None,
     weight: str | None = None,
-) -> alt.LayerChart:
+    view: str = "cells",
+) -> dict:
     """Heatmap of a table with the value printed in each cell and marginal totals.
 
     Parameters
@@ -124,16 +152,25 @@ def heatmap_chart(
         charts (one per level of the control variable) so that they share one colour scale.
     weight : str, optional
         The weight column, named in the subtitle: the cells then hold sums of weights.
+    view : str
+        Name of the layer of cells, which the click selection refers to (distinct names
+        when several heatmaps share a page, see
+        :func:`~rankfold.widgets.within_levels_view.level_heatmaps`).
 
     Returns
     -------
-    altair.LayerChart
-        Clicking a cell sets the point selection ``"cell"`` to its positions.
+    dict
+        A layered Vega-Lite specification (wrap it with
+        :func:`~rankfold.widgets.chart_pane.as_altair` for an Altair chart). Clicking a cell
+        sets the point selection ``"cell"`` to its positions.
     """
     if colour_by not in COLOUR_CHOICES:
         raise ValueError(f"colour_by must be one of {list(COLOUR_CHOICES)}; got {colour_by!r}.")
-    row_labels = [str(x) for x in dict.fromkeys(figures["row"])]
-    col_labels = [str(x) for x in dict.fromkeys(figures["col"])]
+    rows = [str(r) for r in figures["row"].tolist()]
+    cols = [str(c) for c in figures["col"].tolist()]
+    row_labels, col_labels = list(dict.fromkeys(rows)), list(dict.fromkeys(cols))
+    row_positions = figures["row_position"].to_numpy()
+    col_positions = figures["col_position"].to_numpy()
     x, y = grid_axes(row_labels, col_labels, row_name, col_name, margins=True)
     totals_col = _margin_label(col_labels)
     totals_row = _margin_label(row_labels)
@@ -149,58 +186,73 @@ def heatmap_chart(
         {"row": r, "col": c, "row_position": int(i), "col_position": int(j),
          "value": float(v) if ok else None, "label": _cell_text(v, colour_by),
          "ink": "#ffffff" if ok and abs(v) / largest > 0.6 else "#1a1a1a"}
-        for r, c, i, j, v, ok in zip(
-            map(str, figures["row"]), map(str, figures["col"]), figures["row_position"],
-            figures["col_position"], values, finite, strict=True)
+        for r, c, i, j, v, ok in zip(rows, cols, row_positions.tolist(), col_positions.tolist(),
+                                     values.tolist(), finite.tolist(), strict=True)
     ]
-    first_col = figures.drop_duplicates("row")
-    first_row = figures.drop_duplicates("col")
-    margins = [(r, totals_col, t) for r, t in zip(row_labels, first_col["row_total"], strict=True)]
-    margins += [(totals_row, c, t) for c, t in zip(col_labels, first_row["col_total"], strict=True)]
-    margins.append((totals_row, totals_col, float(first_col["row_total"].sum())))
+    row_totals, col_totals = np.zeros(len(row_labels)), np.zeros(len(col_labels))
+    row_totals[row_positions] = figures["row_total"].to_numpy(dtype=float)
+    col_totals[col_positions] = figures["col_total"].to_numpy(dtype=float)
+    margins = [(r, totals_col, t) for r, t in zip(row_labels, row_totals.tolist(), strict=True)]
+    margins += [(totals_row, c, t) for c, t in zip(col_labels, col_totals.tolist(), strict=True)]
+    margins.append((totals_row, totals_col, float(row_totals.sum())))
     cells += [{"row": r, "col": c, "label": formatting.amount(t), "ink": _TOTAL_INK}
               for r, c, t in margins]
-    with building():
-        if colour_by in _DIVERGING:
-            scale = alt.Scale(scheme="blueorange", domain=[-largest, largest], domainMid=0)
-        else:
-            scale = alt.Scale(scheme="blues", domain=[0, largest])
-        click = alt.selection_point(name=CLICK, fields=["row_position", "col_position"],
-                                    on="click")
-        # Swatches, not a gradient: every chart on a page numbers its SVG gradients from 0, so
-        # with two charts one legend would paint the other's gradient (or none, if hidden).
-        legend = alt.Legend(orient="bottom", type="symbol", direction="horizontal",
-                            symbolType="square", symbolSize=160, symbolStrokeWidth=0)
-        rect = alt.Chart().mark_rect(stroke="#ffffff", strokeWidth=1, cursor="pointer").encode(
-            x=x, y=y,
-            color=alt.Color(field="value", type="quantitative", scale=scale,
-                            title=COLOUR_CHOICES[colour_by], legend=legend),
-        ).transform_filter(f"datum.ink != '{_TOTAL_INK}'").add_params(click)
-        # The text is painted through "fill", a channel of its own: a second scale on
-        # "color" would be merged with the cells' one (Vega-Lite shares it across layers).
-        ink = alt.Fill(field="ink", type="nominal", legend=None,
-                       scale=alt.Scale(domain=list(INKS), range=list(INKS)))
-        text = alt.Chart().mark_text(fontSize=11).encode(
-            x=x, y=y, text=alt.Text(field="label", type="nominal"), fill=ink
-        )
-        marks = [rect, text]
-        if chosen is not None:
-            outline = alt.Chart().mark_rect(fill=None, stroke="#111111", strokeWidth=3).encode(
-                x=x, y=y
-            ).transform_filter(
-                f"datum.row_position == {int(chosen[0])} && datum.col_position == {int(chosen[1])}"
-            )
-            marks.append(outline)
-        return alt.LayerChart(
-            data=inline_data(cells),
-            layer=marks,
-            width=alt.Step(cell_width(len(col_labels) + 1)),
-            height=alt.Step(CELL_HEIGHT),
-            title=alt.Title(f"{row_name} by {col_name}: {COLOUR_CHOICES[colour_by]}",
-                            subtitle=(f"sums of the weight {weight}; " if weight else "")
-                            + "totals in grey; click a cell to see its pairs"),
-            background="#ffffff",
-        )
+    if colour_by in _DIVERGING:
+        scale = {"domain": [-largest, largest], "domainMid": 0, "scheme": "blueorange"}
+    else:
+        scale = {"domain": [0, largest], "scheme": "blues"}
+    # Swatches, not a gradient: every chart on a page numbers its SVG gradients from 0, so
+    # with two charts one legend would paint the other's gradient (or none, if hidden).
+    legend = {"direction": "horizontal", "orient": "bottom", "symbolSize": 160,
+              "symbolStrokeWidth": 0, "symbolType": "square", "type": "symbol"}
+    rect = {
+        "mark": {"type": "rect", "cursor": "pointer", "stroke": "#ffffff", "strokeWidth": 1},
+        "encoding": {"x": x, "y": y, "color": {
+            "field": "value", "type": "quantitative", "scale": scale,
+            "title": COLOUR_CHOICES[colour_by], "legend": legend}},
+        "name": view,
+        "transform": [{"filter": f"datum.ink != '{_TOTAL_INK}'"}],
+    }
+    layers = [rect, numbers_layer(x, y, "label")]
+    if chosen is not None:
+        layers.append({
+            "mark": {"type": "rect", "fill": None, "stroke": "#111111", "strokeWidth": 3},
+            "encoding": {"x": x, "y": y},
+            "transform": [{"filter": f"datum.row_position == {int(chosen[0])} && "
+                                     f"datum.col_position == {int(chosen[1])}"}],
+        })
+    return {
+        "$schema": SCHEMA,
+        "background": "#ffffff",
+        "data": inline_values(cells),
+        "layer": layers,
+        "params": [click_on([view])],
+        "width": {"step": cell_width(len(col_labels) + 1)},
+        "height": {"step": CELL_HEIGHT},
+        "title": {"text": f"{row_name} by {col_name}: {COLOUR_CHOICES[colour_by]}",
+                  "subtitle": (f"sums of the weight {weight}; " if weight else "")
+                  + "totals in grey; click a cell to see its pairs"},
+    }
+
+
+def rendered_heatmap(rendered: Rendered) -> dict:
+    """The explorer's heatmap of a rendered state: :func:`heatmap_spec` of its table in the
+    state's colouring, with the chosen cell (if it is still a cell of the table) outlined.
+
+    Parameters
+    ----------
+    rendered : Rendered
+        See :class:`rankfold.widgets.render.Rendered`.
+
+    Returns
+    -------
+    dict
+        A Vega-Lite specification.
+    """
+    regions, table = rendered.regions, rendered.table
+    chosen = None if regions is None else (regions.row, regions.col)
+    return heatmap_spec(rendered.figures, rendered.state.colour_by, table.row_name,
+                         table.col_name, chosen, weight=table.weight)
 
 
 #: A plain explanation of each colouring, shown as its button's tooltip.
@@ -247,7 +299,7 @@ class HeatmapSection:
         """Display the rendered state (see :class:`rankfold.widgets.render.Rendered`)."""
         self._rendered = rendered
         self._colour.value = rendered.state.colour_by
-        self._pane.show(rendered.chart("heatmap"))
+        self._pane.show(rendered_heatmap(rendered))
 
     def _colour_changed(self, change: dict) -> None:
         self._propose(lambda state: state.with_view(colour_by=change["new"]))

@@ -98,7 +98,7 @@ def _title(key: str) -> str:
     return f' title="{formatting.text(help_text)}"' if help_text else ""
 
 
-def _measure_row(key: str, record: pd.Series, label: str, note: str) -> str:
+def _measure_row(key: str, record: pd.Series | tuple, label: str, note: str) -> str:
     return (
         f'<tr data-measure="{key}"{_title(key)}><th scope="row">{formatting.text(label)}</th>'
         f'<td class="rankfold-estimate" data-measure="{key}">{formatting.estimate(record.estimate)}'
@@ -115,6 +115,7 @@ def measures_html(
     warnings: Sequence[str],
     left_out: float,
     confidence: float = 0.95,
+    slope: pd.DataFrame | None = None,
 ) -> str:
     """The measures of the current table as an HTML panel.
 
@@ -132,6 +133,8 @@ def measures_html(
         Units left out by the explorer's exclusions.
     confidence : float
         Level of the intervals in ``measures``, for the column heading.
+    slope : pandas.DataFrame, optional
+        ``table.cumulative_logit()``, when computed already (else it is computed here).
 
     Returns
     -------
@@ -145,15 +148,17 @@ def measures_html(
     ordinal = [k for k in measures.index if k not in (*_NOMINAL, *_LATENT)]
     latent = [k for k in measures.index if k in _LATENT]
     nominal = [k for k in measures.index if k in _NOMINAL]
-    slope = table.cumulative_logit()
+    slope = table.cumulative_logit() if slope is None else slope
     shared, own = formatting.shared_note([*measures["note"], slope.loc["slope", "note"]])
     notes = dict(zip([*measures.index, "cumulative_logit"], own, strict=True))
     for key, check in _model_checks(tests, slope).items():
         notes[key] = "; ".join(x for x in (notes[key], check) if x)
 
+    records = dict(zip(measures.index, measures.itertuples(index=False), strict=True))
+
     def rows(keys: list[str]) -> str:
         return "".join(
-            _measure_row(k, measures.loc[k], measure_label(k, table.row_name, table.col_name),
+            _measure_row(k, records[k], measure_label(k, table.row_name, table.col_name),
                          notes[k])
             for k in keys
         )

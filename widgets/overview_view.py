@@ -85,6 +85,7 @@ class AllPairsSection:
     def __init__(self, propose: Callable, notify: Callable) -> None:
         self._propose, self._notify = propose, notify
         self._key: tuple | None = None
+        self._drawn: tuple | None = None  # the pair marked on the chart on screen
         self.frame: pd.DataFrame | None = None
         self._rendered: Rendered | None = None
         self._cancel = threading.Event()
@@ -132,13 +133,15 @@ class AllPairsSection:
             if AUTO_FILL:
                 self.fill_ranges()
             return
-        self._draw()
+        if (state.row, state.col) != self._drawn:  # a new coding changes nothing drawn here
+            self._draw()
 
     def _draw(self) -> None:
         state = self._rendered.state
         self._summary.value = overview_summary(self.frame)
         chosen = (state.row, state.col)
         self._pane.show(overview_matrix(self.frame, chosen=chosen))
+        self._drawn = chosen
 
     # ------------------------------------------------------------------ actions
     def _clicked(self, point: dict) -> None:

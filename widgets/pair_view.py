@@ -1,11 +1,14 @@
-"""The pair view: for one chosen cell, which cells are concordant, discordant or tied with it."""
+"""The pair view: for one chosen cell, which cells are concordant, discordant or tied with it.
+
+Redrawn after every change while its tab shows, so its Vega-Lite specification is written as a
+plain dictionary, like the heatmap's.
+"""
 
 from __future__ import annotations
 
 from collections.abc import Callable, Hashable
 from typing import TYPE_CHECKING
 
-import altair as alt
 import ipywidgets as widgets
 import pandas as pd
 
@@ -13,14 +16,15 @@ from rankfold import PairRegions
 from rankfold.pair_regions import REGIONS
 
 from . import formatting
-from .chart_pane import CLICK, ChartPane, building, inline_data
-from .heatmap import CELL_HEIGHT, INKS, cell_width, grid_axes
+from .chart_pane import SCHEMA, ChartPane, click_on, inline_values
+from .heatmap import CELL_HEIGHT, cell_width, grid_axes, numbers_layer
 from .pickers import labelled
 
 if TYPE_CHECKING:
     from .render import Rendered
 
-__all__ = ["pair_chart", "pair_table_html", "PairSection", "ink_for", "relative_luminance"]
+__all__ = ["pair_spec", "rendered_pairs", "pair_table_html", "PairSection", "ink_for",
+           "relative_luminance"]
 
 # The chart legend: concordant, discordant, tied (any tie), and the chosen cell itself.
 _SHOWN = {key: kind.split()[0] for key, kind in REGIONS.items()} | {"same_cell": "chosen cell"}
@@ -76,9 +80,9 @@ def ink_for(colour: str) -> str:
     return "#ffffff" if on_white >= on_dark else "#1a1a1a"
 
 
-def pair_chart(
+def pair_spec(
     figures: pd.DataFrame, regions: PairRegions, row_name: str, col_name: str
-) -> alt.LayerChart:
+) -> dict:
     """The table's cells coloured by the kind of pair they form with the chosen cell.
 
     Parameters
@@ -92,8 +96,10 @@ def pair_chart(
 
     Returns
     -------
-    altair.LayerChart
-        Clicking a cell sets the point selection ``"cell"`` to its positions.
+    dict
+        A layered Vega-Lite specification (:func:`~rankfold.widgets.chart_pane.as_altair`
+        wraps it as an Altair chart). Clicking a cell sets the point selection ``"cell"`` to
+        its positions.
     """
     x, y = grid_axes(list(dict.fromkeys(figures["row"])), list(dict.fromkeys(figures["col"])),
                      row_name, col_name, margins=False)
@@ -107,31 +113,25 @@ def pair_chart(
         cell["ink"] = ink_for(_COLOURS[cell["kind"]])
     chosen = cells[regions.row * len(dict.fromkeys(figures["col"])) + regions.col]
     kinds = list(_COLOURS)
-    with building():
-        colour = alt.Color(field="kind", type="nominal", title="pair with the chosen cell",
-                           scale=alt.Scale(domain=kinds, range=[_COLOURS[k] for k in kinds]),
-                           legend=alt.Legend(orient="bottom"))
-        click = alt.selection_point(name=CLICK, fields=["row_position", "col_position"],
-                                    on="click")
-        rect = alt.Chart().mark_rect(stroke="#ffffff", strokeWidth=1, cursor="pointer").encode(
-            x=x, y=y, color=colour
-        ).add_params(click)
-        # The text is painted through "fill", a channel of its own: a second scale on "color"
-        # would be merged with the cells' one and paint the numbers in the cell's colour.
-        ink = alt.Fill(field="ink", type="nominal", legend=None,
-                       scale=alt.Scale(domain=list(INKS), range=list(INKS)))
-        numbers = alt.Chart().mark_text(fontSize=11).encode(
-            x=x, y=y, text=alt.Text(field="count", type="nominal"), fill=ink
-        )
-        return alt.LayerChart(
-            data=inline_data(cells),
-            layer=[rect, numbers],
-            width=alt.Step(cell_width(len(dict.fromkeys(figures["col"])))),
-            height=alt.Step(CELL_HEIGHT),
-            title=alt.Title(f"Pairs with a unit in ({chosen['row']}, {chosen['col']})",
-                            subtitle="numbers are units per cell; click another cell to move"),
-            background="#ffffff",
-        )
+    rect = {
+        "mark": {"type": "rect", "cursor": "pointer", "stroke": "#ffffff", "strokeWidth": 1},
+        "encoding": {"x": x, "y": y, "color": {
+            "field": "kind", "type": "nominal", "title": "pair with the chosen cell",
+            "scale": {"domain": kinds, "range": [_COLOURS[k] for k in kinds]},
+            "legend": {"orient": "bottom"}}},
+        "name": "cells",
+    }
+    return {
+        "$schema": SCHEMA,
+        "background": "#ffffff",
+        "data": inline_values(cells),
+        "layer": [rect, numbers_layer(x, y, "count")],
+        "params": [click_on(["cells"])],
+        "width": {"step": cell_width(len(dict.fromkeys(figures["col"])))},
+        "height": {"step": CELL_HEIGHT},
+        "title": {"text": f"Pairs with a unit in ({chosen['row']}, {chosen['col']})",
+                  "subtitle": "numbers are units per cell; click another cell to move"},
+    }
 
 
 def pair_table_html(
@@ -175,6 +175,16 @@ def pair_table_html(
     )
 
 
+def rendered_pairs(rendered: Rendered) -> dict | None:
+    """The explorer's pair view of ``rendered`` (the numbers of one state, a
+    :class:`~rankfold.widgets.render.Rendered`): the Vega-Lite dictionary of :func:`pair_spec`
+    around the state's chosen cell, or None while no cell of its table is chosen."""
+    if rendered.regions is None:
+        return None
+    table = rendered.table
+    return pair_spec(rendered.figures, rendered.regions, table.row_name, table.col_name)
+
+
 class PairSection:
     """Chooses a cell (from a list or by clicking either chart) and explains its pairs.
 
@@ -216,7 +226,7 @@ class PairSection:
         if [o[1] for o in self._cell.options] != [o[1] for o in options]:
             self._cell.options = options
         self._cell.value = rendered.state.chosen_cell if rendered.regions is not None else None
-        self._pane.show(rendered.chart("pairs"))
+        self._pane.show(rendered_pairs(rendered))
         self._table.value = (
             "" if rendered.regions is None
             else pair_table_html(rendered.regions, rendered.state.chosen_cell,

@@ -1,48 +1,62 @@
-"""The render pass: from an :class:`ExplorerState` to every number and chart the explorer shows.
+"""The render pass: from an :class:`ExplorerState` to every number the explorer shows.
 
 The user's frame is counted once per variable pair (:class:`TableCache`); every edit or view
 change starts again from that cached table, so a change costs a few milliseconds whatever the
-number of records. Statistics all come from the core; this module only chains the calls.
+number of records. Statistics all come from the core; this module only chains the calls. It
+draws nothing: each view module builds its own chart from a :class:`Rendered` (the heatmap in
+``heatmap.py``, the pair view in ``pair_view.py``, ...), and imports this module, never the
+other way round.
 """
 
 from __future__ import annotations
 
+from collections import OrderedDict
 from collections.abc import Hashable
 from dataclasses import dataclass, field
 from typing import Any
 
-import altair as alt
+import numpy as np
 import pandas as pd
 
 import rankfold
 from rankfold import Diagnostics, OrdinalTable, PairRegions
 
-from .comparison import BASELINES, COMPARED, comparison_chart
-from .heatmap import heatmap_chart
-from .pair_view import pair_chart
 from .state import ExplorerState
 from .table_mode import fixed_table, has_records
 
-__all__ = ["TableCache", "Rendered", "render", "CHARTS"]
+__all__ = ["TableCache", "Rendered", "render", "COMPARED", "BASELINES"]
 
-#: Names of the charts a rendered state can draw (see :meth:`Rendered.chart`).
-CHARTS = ("heatmap", "pairs", "comparison", "comparison_previous")
+#: The measures :meth:`Rendered.compared` compares, in display order.
+COMPARED = ("gamma", "somers_d_col_given_row", "somers_d_row_given_col", "somers_d_symmetric",
+            "tau_b", "tau_c", "spearman_rho")
+#: What the current coding can be compared against: key -> name shown for the earlier table.
+BASELINES = {"collected": "as collected", "previous": "before the last step"}
 
 
 class TableCache:
-    """Counts a DataFrame once per choice of variables and keeps the result.
+    """Counts a DataFrame once per choice of variables and keeps the result, and keeps the
+    numbers of the codings shown last.
 
     Parameters
     ----------
     data : pandas.DataFrame, a source of :func:`rankfold.table`, or OrdinalTable
         The user's frame or source; it is only read. A ready table is shown as it is (see
         :func:`~rankfold.widgets.table_mode.fixed_table`).
+
+    Notes
+    -----
+    A view choice (colour, chosen cell), undo, redo and picking a pair seen before come back
+    to a coding whose numbers were computed already: :meth:`numbers` keeps those of the last
+    :attr:`remembered` codings, so such changes cost no core computation.
     """
+
+    #: How many codings' numbers are kept (the most recently used ones).
+    remembered = 32
 
     def __init__(self, data: pd.DataFrame | OrdinalTable | Any) -> None:
         self.data = data
         self._tables: dict[tuple, OrdinalTable] = {}
-        self._measures: dict[tuple, pd.DataFrame] = {}
+        self._numbers: OrderedDict[tuple, dict[str, Any]] = OrderedDict()
 
     def collected(self, state: ExplorerState) -> OrdinalTable:
         """The table as collected (before any edit) for the state's variables."""
@@ -58,6 +72,46 @@ class TableCache:
             )
         return self._tables[key]
 
+    def numbers(self, state: ExplorerState) -> dict[str, Any]:
+        """The tables and the numbers of the state's coding of its pair, computed once.
+
+        Parameters
+        ----------
+        state : ExplorerState
+
+        Returns
+        -------
+        dict
+            ``collected``, ``previous``, ``table``, ``measures``, ``tests``, ``diagnostics``,
+            ``figures`` and ``slope`` (``table.cumulative_logit()``), as in :class:`Rendered`,
+            and ``_compared``, where :meth:`Rendered.compared` keeps its comparisons of this
+            coding.
+
+        Raises
+        ------
+        ValueError
+            If the coding cannot be applied or leaves an unusable table (nothing is kept).
+        """
+        key = (state.table_key, state.edits)
+        if key in self._numbers:
+            self._numbers.move_to_end(key)
+            return self._numbers[key]
+        collected = self.collected(state)
+        previous = table = collected
+        for edit in state.edits:
+            previous, table = table, edit.apply(table)
+        _check_usable(table)
+        numbers = {
+            "collected": collected, "previous": previous, "table": table,
+            "measures": table.measures(), "tests": table.tests(),
+            "diagnostics": table.diagnostics(), "figures": rankfold.cell_figures(table),
+            "slope": table.cumulative_logit(), "_compared": {},
+        }
+        self._numbers[key] = numbers
+        while len(self._numbers) > self.remembered:
+            self._numbers.popitem(last=False)
+        return numbers
+
     def needs_count(self, state: ExplorerState) -> bool:
         """True if the state's variables must first be counted by another engine (slow)."""
         return state.table_key not in self._tables and not (
@@ -66,7 +120,7 @@ class TableCache:
 
 @dataclass(frozen=True)
 class Rendered:
-    """Everything derived from one state; charts are drawn on first request.
+    """Every number derived from one state (the views draw their charts from it).
 
     Attributes
     ----------
@@ -78,6 +132,8 @@ class Rendered:
     diagnostics : Diagnostics
     figures : pandas.DataFrame
         :func:`rankfold.cell_figures` of the table.
+    slope : pandas.DataFrame
+        ``table.cumulative_logit()`` (the proportional-odds slope the measures panel shows).
     regions : PairRegions or None
         :func:`rankfold.pair_regions` of the chosen cell, if one is chosen and still exists.
     previous : OrdinalTable
@@ -96,37 +152,17 @@ class Rendered:
     tests: pd.DataFrame
     diagnostics: Diagnostics
     figures: pd.DataFrame
+    slope: pd.DataFrame
     regions: PairRegions | None
     previous: OrdinalTable
     left_out: float
     source: TableCache = field(repr=False, compare=False)
-    _charts: dict = field(default_factory=dict, repr=False, compare=False)
+    _compared: dict = field(default_factory=dict, repr=False, compare=False)
 
     @property
     def before_last_step(self) -> OrdinalTable | None:
         """The table before the state's last coding step; None when there is no step."""
         return self.previous if self.state.edits else None
-
-    def chart(self, name: str) -> alt.TopLevelMixin | None:
-        """The named chart (one of :data:`CHARTS`), built on first request; None for the pair
-        chart while no cell is chosen."""
-        if name not in CHARTS:
-            raise ValueError(f"Unknown chart {name!r}; the explorer draws {list(CHARTS)}.")
-        if name not in self._charts:
-            t = self.table
-            if name == "heatmap":
-                chosen = None if self.regions is None else (self.regions.row, self.regions.col)
-                drawn = heatmap_chart(self.figures, self.state.colour_by, t.row_name, t.col_name,
-                                      chosen, weight=t.weight)
-            elif name == "pairs":
-                drawn = (None if self.regions is None
-                         else pair_chart(self.figures, self.regions, t.row_name, t.col_name))
-            else:
-                baseline = "collected" if name == "comparison" else "previous"
-                drawn = comparison_chart(self.compared(baseline), t.row_name, t.col_name,
-                                         baseline)
-            self._charts[name] = drawn
-        return self._charts[name]
 
     @property
     def comparison(self) -> pd.DataFrame:
@@ -146,16 +182,15 @@ class Rendered:
         Returns
         -------
         pandas.DataFrame
-            The measures of :data:`~rankfold.widgets.comparison.COMPARED`, one row each.
+            The measures of :data:`COMPARED`, one row each.
         """
         if baseline not in BASELINES:
             raise ValueError(f"Compare against one of {list(BASELINES)}; got {baseline!r}.")
-        key = f"compared:{baseline}"
-        if key not in self._charts:
+        if baseline not in self._compared:
             before = self.collected if baseline == "collected" else self.previous
             keys = [k for k in COMPARED if k in self.measures.index]
-            self._charts[key] = rankfold.compare_measures(before, self.table, keys)
-        return self._charts[key]
+            self._compared[baseline] = rankfold.compare_measures(before, self.table, keys)
+        return self._compared[baseline]
 
     def baseline_description(self, baseline: str) -> str:
         """One sentence naming the earlier table of :meth:`compared`."""
@@ -186,9 +221,11 @@ class Rendered:
 
     def axis_totals(self, axis: str) -> list[tuple[Hashable, float]]:
         """Each category of ``axis`` (``'rows'`` or ``'cols'``) with its number of units."""
-        label, total = ("row", "row_total") if axis == "rows" else ("col", "col_total")
-        first = self.figures.drop_duplicates(label)
-        return list(zip(first[label], first[total].astype(float), strict=True))
+        which = "row" if axis == "rows" else "col"
+        labels = self.table.row_labels if axis == "rows" else self.table.col_labels
+        totals = np.zeros(len(labels))
+        totals[self.figures[f"{which}_position"].to_numpy()] = self.figures[f"{which}_total"]
+        return list(zip(labels, totals.tolist(), strict=True))
 
 
 def _check_usable(table: OrdinalTable) -> None:
@@ -227,12 +264,8 @@ def render(state: ExplorerState, cache: TableCache) -> Rendered:
         non-neighbours, a variable left with one category, no units left); the message says
         what and how to fix it.
     """
-    collected = cache.collected(state)
-    previous = table = collected
-    for edit in state.edits:
-        previous, table = table, edit.apply(table)
-    _check_usable(table)
-    measures = table.measures()
+    numbers = cache.numbers(state)
+    table = numbers["table"]
     regions = None
     if state.chosen_cell is not None:
         row, col = state.chosen_cell
@@ -240,16 +273,5 @@ def render(state: ExplorerState, cache: TableCache) -> Rendered:
             regions = rankfold.pair_regions(
                 table.counts.to_numpy(), table.row_labels.index(row), table.col_labels.index(col)
             )
-    return Rendered(
-        state=state,
-        collected=collected,
-        table=table,
-        measures=measures,
-        tests=table.tests(),
-        diagnostics=table.diagnostics(),
-        figures=rankfold.cell_figures(table),
-        regions=regions,
-        previous=previous,
-        left_out=collected.n - table.n,
-        source=cache,
-    )
+    return Rendered(state=state, regions=regions, left_out=numbers["collected"].n - table.n,
+                    source=cache, **numbers)

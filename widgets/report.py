@@ -19,7 +19,8 @@ from rankfold.collapsing import range_sentence, sweep_ranges
 from . import formatting
 from .computation_view import computation_html
 from .export import code_snippet
-from .heatmap import heatmap_chart
+from .heatmap import heatmap_spec
+from .named_charts import named_chart
 from .static_record import RECORD_STYLE, chart_svg, counts_html, steps_html
 
 if TYPE_CHECKING:
@@ -137,7 +138,7 @@ def report_html(
     *,
     measures: pd.DataFrame | None = None,
     tests: pd.DataFrame | None = None,
-    charts: dict[str, alt.TopLevelMixin] | None = None,
+    charts: dict[str, alt.TopLevelMixin | dict] | None = None,
     sweep: pd.DataFrame | None = None,
     before: OrdinalTable | None = None,
     left_out: float = 0,
@@ -152,7 +153,7 @@ def report_html(
         The table reported.
     measures, tests : pandas.DataFrame, optional
         ``table.measures()`` and ``table.tests()`` (computed when not given).
-    charts : dict of str to altair chart, optional
+    charts : dict of str to altair chart or Vega-Lite dict, optional
         Captioned charts, drawn as inline SVG; by default the heatmap of counts.
     sweep : pandas.DataFrame, optional
         A :func:`rankfold.sweep` frame; its ranges are reported.
@@ -179,8 +180,8 @@ def report_html(
     tests = table.tests() if tests is None else tests
     if charts is None:
         figures = rankfold.cell_figures(table)
-        charts = {"Counts in each cell": heatmap_chart(figures, "count", table.row_name,
-                                                       table.col_name, weight=table.weight)}
+        charts = {"Counts in each cell": heatmap_spec(figures, "count", table.row_name,
+                                                      table.col_name, weight=table.weight)}
     title = title or f"{table.row_name} by {table.col_name}"
     warnings = table.diagnostics().warnings
     # measures_html lives in the panel module; imported here to share its exact layout
@@ -274,9 +275,11 @@ def rendered_report(rendered: Rendered, path: str | Path, sweep: pd.DataFrame | 
         The absolute path written.
     """
     charts = {
-        "Counts in each cell (colour as chosen in the explorer)": rendered.chart("heatmap"),
-        "Each measure as collected and with the current coding": rendered.chart("comparison"),
-        "Pairs around the chosen cell": rendered.chart("pairs"),
+        "Counts in each cell (colour as chosen in the explorer)": named_chart(rendered,
+                                                                              "heatmap"),
+        "Each measure as collected and with the current coding": named_chart(rendered,
+                                                                             "comparison"),
+        "Pairs around the chosen cell": named_chart(rendered, "pairs"),
     }
     text = report_html(rendered.table, measures=rendered.measures, tests=rendered.tests,
                        charts=charts, sweep=sweep, before=rendered.before_last_step,

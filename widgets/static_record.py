@@ -23,6 +23,7 @@ from rankfold import OrdinalTable
 
 from . import formatting
 from .export import static_spec
+from .heatmap import rendered_heatmap
 from .measures_panel import measures_html
 
 if TYPE_CHECKING:
@@ -54,13 +55,13 @@ RECORD_STYLE = """<style>
 _NAMESPACES = re.compile(r'\s+xmlns(:\w+)?="[^"]*"')
 
 
-def chart_svg(chart: alt.TopLevelMixin) -> str:
+def chart_svg(chart: alt.TopLevelMixin | dict) -> str:
     """An Altair chart as an inline ``<svg>`` element, drawn offline with vl-convert.
 
     Parameters
     ----------
-    chart : altair chart
-        Any chart (the explorer's heatmap, for instance).
+    chart : altair chart or dict
+        Any chart or Vega-Lite dictionary (the explorer's heatmap, for instance).
 
     Returns
     -------
@@ -137,7 +138,7 @@ def record_html(
     tests: pd.DataFrame,
     warnings: Sequence[str],
     left_out: float,
-    chart: alt.TopLevelMixin | None,
+    chart: alt.TopLevelMixin | dict | None,
     heading: str,
     css_class: str = "rankfold-record",
 ) -> str:
@@ -147,7 +148,7 @@ def record_html(
     ----------
     table, measures, tests, warnings, left_out
         As in :func:`rankfold.widgets.measures_panel.measures_html`.
-    chart : altair chart or None
+    chart : altair chart, Vega-Lite dict or None
         Drawn as inline SVG by :func:`chart_svg`; if it cannot be drawn the record says why.
     heading : str
         The record's heading.
@@ -177,7 +178,7 @@ def record_html(
 def _rendered_record(rendered: Rendered, heading: str, css_class: str) -> str:
     return record_html(rendered.table, rendered.measures, rendered.tests,
                        rendered.diagnostics.warnings, rendered.left_out,
-                       rendered.chart("heatmap"), heading, css_class)
+                       rendered_heatmap(rendered), heading, css_class)
 
 
 def snapshot_html(rendered: Rendered) -> str:

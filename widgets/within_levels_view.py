@@ -3,18 +3,16 @@ each level (each level's gamma beside partial gamma, with the homogeneity and CM
 
 All numbers come from the core (:meth:`rankfold.OrdinalTable.control_table`,
 :meth:`~rankfold.OrdinalTable.control_measures`, :meth:`~rankfold.OrdinalTable.partial_measures`,
-:meth:`~rankfold.OrdinalTable.tests`); the heatmaps are :func:`heatmap_chart` drawn once per
+:meth:`~rankfold.OrdinalTable.tests`); the heatmaps are :func:`heatmap_spec` drawn once per
 level.
 """
 
 from __future__ import annotations
 
 import math
-import warnings
 from collections.abc import Callable
 from typing import TYPE_CHECKING
 
-import altair as alt
 import ipywidgets as widgets
 import pandas as pd
 
@@ -22,8 +20,8 @@ import rankfold
 from rankfold import OrdinalTable
 
 from . import formatting
-from .chart_pane import ChartPane
-from .heatmap import cell_width, heatmap_chart
+from .chart_pane import SCHEMA, ChartPane, click_on
+from .heatmap import cell_width, heatmap_spec
 
 if TYPE_CHECKING:
     from .render import Rendered
@@ -48,8 +46,7 @@ _NO_CONTROL = (
 )
 
 
-def level_heatmaps(table: OrdinalTable, colour_by: str,
-                   columns: int | None = None) -> alt.ConcatChart:
+def level_heatmaps(table: OrdinalTable, colour_by: str, columns: int | None = None) -> dict:
     """One heatmap per level, all on the same colour scale.
 
     Parameters
@@ -64,10 +61,12 @@ def level_heatmaps(table: OrdinalTable, colour_by: str,
 
     Returns
     -------
-    altair.ConcatChart
-        Titled by level, with one shared colour scale (the largest absolute value over all
-        levels), so that equal colours mean equal values in every level. Clicking a cell sets
-        the point selection ``"cell"`` to its positions, as in :func:`heatmap_chart`.
+    dict
+        A concatenated Vega-Lite specification (:func:`~rankfold.widgets.chart_pane.as_altair`
+        wraps it as an Altair chart), titled by level, with one shared colour scale (the
+        largest absolute value over all levels), so that equal colours mean equal values in
+        every level. Clicking a cell of any level sets the one point selection ``"cell"`` to
+        its positions, as in :func:`heatmap_spec`.
     """
     parts = [(label, rankfold.cell_figures(table.control_table(label)))
              for label in table.control_labels]
@@ -77,24 +76,24 @@ def level_heatmaps(table: OrdinalTable, colour_by: str,
         columns = max(1, GRID_WIDTH // width)
     values = pd.concat([figures[colour_by] for _, figures in parts]).astype(float).abs()
     shared = float(values.max()) if values.notna().any() else 0.0
-    panels = []
-    for label, figures in parts:
-        panel = heatmap_chart(figures, colour_by, table.row_name, table.col_name,
-                              scale_max=shared)
-        panel.background = alt.Undefined  # set once on the whole grid (concat requires it)
+    panels, views = [], []
+    for k, (label, figures) in enumerate(parts):
+        views.append(f"cells_{k}")
+        panel = heatmap_spec(figures, colour_by, table.row_name, table.col_name,
+                             scale_max=shared, view=views[-1])
+        # the background, the click selection and the version tag belong to the whole grid
+        for key in ("$schema", "background", "params"):
+            del panel[key]
         level = table.control_table(label)
         respondents = None if level.records is None else float(level.records.sum())
-        panel.title = alt.Title(
-            f"{table.control_name} = {label}",
-            subtitle=formatting.sample_size(float(figures["count"].sum()), bool(table.weight),
-                                            respondents))
+        panel["title"] = {
+            "text": f"{table.control_name} = {label}",
+            "subtitle": formatting.sample_size(float(figures["count"].sum()),
+                                               bool(table.weight), respondents)}
         panels.append(panel)
-    with warnings.catch_warnings():
-        # Every panel declares the same click selection; Altair merges them into one, which
-        # is what we want (a click in any panel picks that cell).
-        warnings.filterwarnings("ignore", message="Automatically deduplicated selection")
-        grid = alt.concat(*panels, columns=columns, background="#ffffff")
-    return grid.resolve_scale(color="shared")
+    # one selection for every panel: a click in any of them picks that cell
+    return {"$schema": SCHEMA, "background": "#ffffff", "columns": columns, "concat": panels,
+            "params": [click_on(views)], "resolve": {"scale": {"color": "shared"}}}
 
 
 def _row(key: str, label: str, n: float | None, record: pd.Series, kind: str, note: str) -> str:
