@@ -158,6 +158,7 @@ def measures_frame(
     confidence: float = 0.95,
     extra_note: str = "",
     arrays: dict | None = None,
+    latent: dict | None = None,
 ) -> pd.DataFrame:
     """The measures of one 2-D table as a DataFrame (see :meth:`OrdinalTable.measures`).
 
@@ -174,6 +175,9 @@ def measures_frame(
     arrays : dict, optional
         This table's result of :func:`ordinal_measure_arrays` when already computed in a batch
         (as for the levels of a control variable); computed here otherwise.
+    latent : dict, optional
+        This table's result of :func:`rankfold.polychoric.polychoric_arrays` when already
+        fitted (a table fits once for its measures and its tests); fitted here otherwise.
 
     Returns
     -------
@@ -185,7 +189,8 @@ def measures_frame(
                             np.asarray(sampling.records, dtype=float)[None])
     return measures_frames(np.asarray(counts, dtype=float)[None], sampling=sampling,
                            confidence=confidence, extra_note=extra_note,
-                           arrays=None if arrays is None else _batched(arrays))
+                           arrays=None if arrays is None else _batched(arrays),
+                           latent=None if latent is None else _batched({"": latent})[""])
 
 
 def _batched(arrays: dict) -> dict:
@@ -202,6 +207,7 @@ def measures_frames(
     extra_note: str = "",
     arrays: dict | None = None,
     levels: pd.Index | None = None,
+    latent: dict | None = None,
 ) -> pd.DataFrame:
     """The measures of K tables of one shape as one DataFrame, computed batched.
 
@@ -220,6 +226,9 @@ def measures_frames(
         The result of :func:`ordinal_measure_arrays` on ``cells`` when already computed.
     levels : pandas.Index, optional
         The K tables' labels, named; required when K > 1.
+    latent : dict, optional
+        The result of :func:`rankfold.polychoric.polychoric_arrays` on ``cells`` when already
+        fitted; fitted here otherwise (only for the tables that have no empty category).
 
     Returns
     -------
@@ -244,9 +253,11 @@ def measures_frames(
         found = _cramers_v_arrays(cells[batch], _pick(sampling, batch))
         nominal = {k: {f: float(found[f][i]) for f in ("estimate", "std_error", "p_value")}
                    for i, k in enumerate(batch)}
-    latent = None
     if fit:
-        latent = polychoric_arrays(cells[fit], _pick(sampling, fit))
+        latent = (polychoric_arrays(cells[fit], _pick(sampling, fit)) if latent is None
+                  else {f: np.asarray(v)[fit] for f, v in latent.items()})
+    else:
+        latent = None
     records = []
     for k, level in enumerate(cells):
         part = _pick(sampling, [k])

@@ -23,7 +23,7 @@ from .independence import PermutationResult, permutation_test, tests_frame
 from .measure_table import interval_quantile, measures_frame
 from .non_substantive import flagged_labels, off_scale_note
 from .ordinal_measures import Sampling
-from .polychoric import polychoric
+from .polychoric import polychoric, polychoric_arrays
 from .steps import (
     ExcludeStep,
     MergeStep,
@@ -276,7 +276,16 @@ class OrdinalTable:
         """
         return self._once(("measures", confidence), lambda: measures_frame(
             self._pooled(), sampling=self._sampling(), confidence=confidence,
-            extra_note=self._non_substantive_note()))
+            extra_note=self._non_substantive_note(), latent=self._latent_fit()))
+
+    def _latent_fit(self) -> dict:
+        """:func:`~rankfold.polychoric.polychoric_arrays` of the pooled table, fitted once per
+        table: :meth:`measures` (its polychoric row) and :meth:`tests` (the fit of the latent
+        normal) share it."""
+        found = self._kept.get("latent fit")
+        if found is None:
+            found = self._kept["latent fit"] = polychoric_arrays(self._pooled(), self._sampling())
+        return found
 
     def _once(self, key: tuple, compute) -> pd.DataFrame:
         """``compute()``'s frame, computed on the first call with this key (the last item the
@@ -309,7 +318,7 @@ class OrdinalTable:
             :func:`rankfold.polychoric.polychoric`).
         """
         frame = tests_frame(self._pooled(), scores, sampling=self._sampling())
-        latent = polychoric(self._pooled(), self._sampling())
+        latent = polychoric(self._pooled(), self._sampling(), fitted=self._latent_fit())
         fit = pd.DataFrame(
             {"statistic": latent.fit_statistic, "df": latent.fit_df,
              "p_value": latent.fit_p_value, "note": latent.fit_note},

@@ -557,7 +557,8 @@ class PolychoricResult:
     col_thresholds: np.ndarray
 
 
-def polychoric(counts: np.ndarray, sampling: Sampling | None = None) -> PolychoricResult:
+def polychoric(counts: np.ndarray, sampling: Sampling | None = None, *,
+               fitted: dict | None = None) -> PolychoricResult:
     """Polychoric correlation of one table, with the goodness of fit of the latent normal.
 
     Parameters
@@ -566,6 +567,9 @@ def polychoric(counts: np.ndarray, sampling: Sampling | None = None) -> Polychor
         Cell counts or sums of weights, rows and columns in their order.
     sampling : Sampling, optional
         Survey-weight information for linearised standard errors.
+    fitted : dict, optional
+        :func:`polychoric_arrays` of these counts and sampling when already computed (a table
+        fits once for its measures and its tests); fitted here otherwise.
 
     Returns
     -------
@@ -599,7 +603,7 @@ def polychoric(counts: np.ndarray, sampling: Sampling | None = None) -> Polychor
                 f"sampling.squared must have the table's shape {n.shape}; "
                 f"got {np.shape(sampling.squared)}."
             )
-    found = polychoric_arrays(n, sampling)
+    found = polychoric_arrays(n, sampling) if fitted is None else fitted
     est, se, se0, g2, df = (float(found[key]) for key in
                             ("estimate", "std_error", "std_error_null", "fit_statistic", "fit_df"))
     note = str(found["reason"])

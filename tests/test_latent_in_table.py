@@ -75,3 +75,22 @@ def test_a_table_with_one_category_gives_nan_with_reasons():
     assert t.measures().loc["polychoric", "note"]
     slope = t.cumulative_logit().loc["slope"]
     assert np.isnan(slope["estimate"]) and slope["note"]
+
+
+def test_measures_and_tests_share_one_latent_fit(rated, monkeypatch):
+    import rankfold.ordinal_table as ordinal_table
+    from rankfold.polychoric import polychoric
+
+    fits = []
+    real = ordinal_table.polychoric_arrays
+    monkeypatch.setattr(ordinal_table, "polychoric_arrays",
+                        lambda *args, **kw: fits.append(1) or real(*args, **kw))
+    table = rankfold.table_from_counts(rated.cells[0], rated.row_labels, rated.col_labels)
+    row, fit = table.measures().loc["polychoric"], table.tests().loc["latent_normal_fit"]
+    table.measures(confidence=0.9)
+    assert len(fits) == 1
+    # the same numbers as the fit of that table on its own (whose estimate and G^2 the tests
+    # of test_polychoric.py check against simulation and the likelihood written out)
+    alone = polychoric(rated.cells[0])
+    assert row["estimate"] == alone.estimate and row["std_error"] == alone.std_error
+    assert fit["statistic"] == alone.fit_statistic and fit["df"] == alone.fit_df
