@@ -235,7 +235,9 @@ def ordinal_measure_arrays(
     number of records, so constant weights give exactly the unweighted value.
 
     These formulas reproduce the published ones: for gamma, for instance,
-    ``SE = 4/(P + Q)^2 sqrt(sum n_ij (Q C_ij - P D_ij)^2)``.
+    ``SE = 4/(P + Q)^2 sqrt(sum n_ij (Q C_ij - P D_ij)^2)``. The first six are written once,
+    in :mod:`rankfold.quotient_measures` (each denominator with its gradient, and the quotient
+    rule), which the collapsing sweep's kernel calls too.
 
     References
     ----------
