@@ -21,6 +21,7 @@ from collections.abc import Sequence
 import numpy as np
 
 from .ordinal_measures import Sampling, bound_flags, delta_variance
+from .quotient_measures import QUOTIENT_MEASURES, PairSums, quotient_denominator, quotient_rule
 
 __all__ = [
     "SWEEP_KERNEL_MEASURES",
@@ -37,8 +38,7 @@ __all__ = [
 
 #: The measures :func:`sweep_measure_arrays` computes (the others come from the core's
 #: :func:`~rankfold.ordinal_measures.ordinal_measure_arrays`).
-SWEEP_KERNEL_MEASURES = ("gamma", "somers_d_col_given_row", "somers_d_row_given_col",
-                         "somers_d_symmetric", "tau_b", "tau_c")
+SWEEP_KERNEL_MEASURES = QUOTIENT_MEASURES
 
 
 def merge_matrices(groups: np.ndarray, count: int) -> np.ndarray:
@@ -204,13 +204,6 @@ def concordance_cells_first(counts: np.ndarray) -> tuple[np.ndarray, np.ndarray]
     return concordant, discordant
 
 
-def _divide(num: np.ndarray, den: np.ndarray) -> np.ndarray:
-    """``num / den``, NaN where ``den`` is 0."""
-    out = np.full(np.broadcast_shapes(np.shape(num), np.shape(den)), np.nan)
-    np.divide(num, den, out=out, where=den != 0)
-    return out
-
-
 def _bounds(counts, rows, cols, P, Q) -> dict[str, np.ndarray]:
     """Where each measure sits on its bound, by :func:`rankfold.ordinal_measures.bound_flags`.
 
@@ -263,12 +256,12 @@ def sweep_measure_arrays(
 
     Notes
     -----
-    With ``P = sum n C``, ``Q = sum n D``, ``S = P - Q``, ``d = C - D`` and
-    ``w_r = sum n_i+ (n - n_i+)``: gamma ``= S/(P + Q)``, Somers' d ``= S/w_r`` (and its
-    transpose and symmetric version), tau-b ``= S/sqrt(w_r w_c)``, tau-c
-    ``= m S/((m - 1) n^2)``; each gradient is that of
-    :func:`~rankfold.ordinal_measures.ordinal_measure_arrays`, and every variance is
-    :func:`~rankfold.ordinal_measures.delta_variance` of it (the one variance rule).
+    With ``P = sum n C``, ``Q = sum n D``, ``S = P - Q``: each measure is ``S / den``, its
+    denominator and the denominator's gradient from
+    :func:`~rankfold.quotient_measures.quotient_denominator` and the estimate and gradient
+    from :func:`~rankfold.quotient_measures.quotient_rule`, the functions
+    :func:`~rankfold.ordinal_measures.ordinal_measure_arrays` calls too; every variance is
+    :func:`~rankfold.ordinal_measures.delta_variance` of the gradient (the one variance rule).
 
     References
     ----------
@@ -292,56 +285,25 @@ def sweep_measure_arrays(
     S = P - Q
     d = conc - disc
     row_rest, col_rest = total - rows, total - cols  # n - n_i+, n - n_+j
-    w_r = (rows * row_rest).sum(axis=0)
-    w_c = (cols * col_rest).sum(axis=0)
-    out: dict[str, dict[str, np.ndarray]] = {}
-
+    m = np.minimum((rows > 0).sum(axis=0), (cols > 0).sum(axis=0)).astype(float)
+    sums = PairSums(conc, disc, row_rest[:, None], col_rest[None, :], total, P, Q,
+                    (rows * row_rest).sum(axis=0), (cols * col_rest).sum(axis=0), m)
     bounds = _bounds(n, rows, cols, P, Q)
-
-    def finish(key, estimate, grad):
-        # on its bound the estimate is +/-1 and the error 0 exactly (rounding leaves ~1e-17)
-        flag = bounds[key]
-        variance = delta_variance(batch_view(n), batch_view(grad), sampling)
-        out[key] = {
-            "estimate": np.where(flag, np.sign(estimate), estimate),
-            "std_error": np.where(flag, 0.0, np.sqrt(variance)),
-            "on_bound": flag,
-        }
-        if gradients:
-            out[key]["gradient"] = grad
-
-    def ratio(key, den, den_grad):
-        # (2 d_ij den - S den_grad) / den^2, with the per-table factors taken first
-        inverse = _divide(1.0, den)
-        with np.errstate(invalid="ignore"):
-            grad = (2 * inverse) * d
-            grad -= (S * inverse**2) * den_grad
-        finish(key, _divide(S, den), grad)
-
+    out: dict[str, dict[str, np.ndarray]] = {}
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
-        if "gamma" in measures:
-            ratio("gamma", P + Q, 2 * (conc + disc))
-        if "somers_d_col_given_row" in measures:
-            ratio("somers_d_col_given_row", w_r, 2 * row_rest[:, None])
-        if "somers_d_row_given_col" in measures:
-            ratio("somers_d_row_given_col", w_c, 2 * col_rest[None, :])
-        if "somers_d_symmetric" in measures:
-            ratio("somers_d_symmetric", (w_r + w_c) / 2, row_rest[:, None] + col_rest[None, :])
-        if "tau_b" in measures:
-            w = np.sqrt(np.maximum(w_r * w_c, 0.0))  # rounding: w_r < 0 by 1 ulp
-            tau_b = _divide(S, w)
-            inverse = _divide(1.0, w)
-            # v_ij - n (w_r + w_c) = -(w_c (n - n_i+) + w_r (n - n_+j)), without cancellation
-            spread = row_rest[:, None] * w_c + col_rest[None, :] * w_r
-            grad = (2 * inverse) * d
-            grad -= (tau_b * inverse**2) * spread
-            finish("tau_b", tau_b, grad)
-        if "tau_c" in measures:
-            m = np.minimum((rows > 0).sum(axis=0), (cols > 0).sum(axis=0)).astype(float)
-            scale = np.where(m >= 2, _divide(m, (m - 1) * total**2), np.nan)
-            # d/dn_ij of S / n^2 is (2 d_ij - 2 S / n) / n^2: the second term matters for
-            # survey-weight variances only
-            finish("tau_c", S * scale, 2 * (d - S / total) * scale)
+        for key in (k for k in SWEEP_KERNEL_MEASURES if k in measures):
+            den, den_grad = quotient_denominator(key, sums)
+            estimate, grad = quotient_rule(S, den, d, den_grad)
+            # on its bound the estimate is +/-1 and the error 0 exactly (rounding leaves ~1e-17)
+            flag = bounds[key]
+            variance = delta_variance(batch_view(n), batch_view(grad), sampling)
+            out[key] = {
+                "estimate": np.where(flag, np.sign(estimate), estimate),
+                "std_error": np.where(flag, 0.0, np.sqrt(variance)),
+                "on_bound": flag,
+            }
+            if gradients:
+                out[key]["gradient"] = grad
     return out
 
 

@@ -22,6 +22,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from .concordance import cell_concordance
+from .quotient_measures import QUOTIENT_MEASURES, PairSums, quotient_denominator, quotient_rule
 
 __all__ = [
     "ORDINAL_MEASURES",
@@ -31,15 +32,7 @@ __all__ = [
     "ordinal_measure_arrays",
 ]
 
-ORDINAL_MEASURES = (
-    "gamma",
-    "somers_d_col_given_row",
-    "somers_d_row_given_col",
-    "somers_d_symmetric",
-    "tau_b",
-    "tau_c",
-    "spearman_rho",
-)
+ORDINAL_MEASURES = (*QUOTIENT_MEASURES, "spearman_rho")
 
 
 @dataclass(frozen=True)
@@ -242,7 +235,9 @@ def ordinal_measure_arrays(
     number of records, so constant weights give exactly the unweighted value.
 
     These formulas reproduce the published ones: for gamma, for instance,
-    ``SE = 4/(P + Q)^2 sqrt(sum n_ij (Q C_ij - P D_ij)^2)``.
+    ``SE = 4/(P + Q)^2 sqrt(sum n_ij (Q C_ij - P D_ij)^2)``. The first six are written once,
+    in :mod:`rankfold.quotient_measures` (each denominator with its gradient, and the quotient
+    rule), which the collapsing sweep's kernel calls too.
 
     References
     ----------
@@ -270,34 +265,21 @@ def _ordinal_measure_arrays(n, sampling, gradients):
     Q = (n * disc).sum(axis=(-2, -1))
     S = P - Q
     # n^2 - sum n_i+^2 summed as sum n_i+ (n - n_i+): no cancellation at huge counts
-    w_r = (rows * (np.asarray(total)[..., None] - rows)).sum(axis=-1)
-    w_c = (cols * (np.asarray(total)[..., None] - cols)).sum(axis=-1)
-    N = _expand(total)
-    row_grid = rows[..., :, None]
-    col_grid = cols[..., None, :]
-    w = np.sqrt(np.maximum(w_r * w_c, 0.0))  # rounding: w_r < 0 by 1 ulp
+    row_rest = np.asarray(total)[..., None] - rows
+    col_rest = np.asarray(total)[..., None] - cols
+    w_r = (rows * row_rest).sum(axis=-1)
+    w_c = (cols * col_rest).sum(axis=-1)
     m = np.minimum((rows > 0).sum(axis=-1), (cols > 0).sum(axis=-1)).astype(float)
-    tau_c_den = np.where(m >= 2, (m - 1) * total**2 / m, np.nan)
-    w_inverse = _inverse(w)
-
-    # Every measure but Spearman's is a quotient S / den whose numerator has the gradient
-    # 2 d_ij; with den's gradient den'_ij it has the gradient (2 d_ij den - S den'_ij) / den^2.
-    dens = np.stack([P + Q, w_r, w_c, (w_r + w_c) / 2, w, tau_c_den], axis=-1)
-    den_grads = np.empty((*n.shape[:-2], 6, *n.shape[-2:]))
-    den_grads[..., 0, :, :] = 2 * (conc + disc)
-    den_grads[..., 1, :, :] = 2 * (N - row_grid)
-    den_grads[..., 2, :, :] = 2 * (N - col_grid)
-    den_grads[..., 3, :, :] = 2 * N - row_grid - col_grid
-    # d w / d n_ij = (w_c (n - n_i+) + w_r (n - n_+j)) / w
-    den_grads[..., 4, :, :] = ((N - row_grid) * _expand(w_c)
-                               + (N - col_grid) * _expand(w_r)) * _expand(w_inverse)
-    # tau-c's den (m - 1) n^2 / m has the same gradient 2 (m - 1) n / m in every cell: the
-    # multinomial variance ignores it, survey-weight variances do not
-    den_grads[..., 5, :, :] = _expand(2 * tau_c_den / total)
-    inverse = _inverse(dens)
-    estimates = S[..., None] * inverse
-    grads = (_expand(2 * inverse) * d[..., None, :, :]
-             - _expand(S[..., None] * inverse**2) * den_grads)
+    sums = PairSums(conc, disc, row_rest[..., :, None], col_rest[..., None, :], _expand(total),
+                    _expand(P), _expand(Q), _expand(w_r), _expand(w_c), _expand(m))
+    # the six quotient measures stacked on axis -3, evaluated by one quotient rule
+    dens = np.empty((*n.shape[:-2], len(QUOTIENT_MEASURES), 1, 1))
+    den_grads = np.empty((*n.shape[:-2], len(QUOTIENT_MEASURES), *n.shape[-2:]))
+    for k, key in enumerate(QUOTIENT_MEASURES):
+        dens[..., k, :, :], den_grads[..., k, :, :] = quotient_denominator(key, sums)
+    estimates, grads = quotient_rule(_expand(S)[..., None, :, :], dens, d[..., None, :, :],
+                                     den_grads)
+    estimates, inverse = estimates[..., 0, 0], _inverse(dens[..., 0, 0])
     spearman = _spearman(n, rows, cols, total, sampling, gradients=True)
     grads = np.concatenate([grads, spearman["gradient"][..., None, :, :]], axis=-3)
     stacked = sampling
