@@ -35,7 +35,8 @@ __all__ = [
 
 _MAX_ITERATIONS = 100
 _HALVINGS = 40
-_TOLERANCE = 1e-10
+_TOLERANCE = 1e-10  # a step taken this small ends the iteration (also after halvings)
+_NEXT_STEP = 1e-12  # a Newton step this small is not taken: the point is the estimate
 
 ONE_RESPONSE = "needs at least two non-empty categories of the response"
 ONE_SCORE = "needs at least two non-empty categories of the scored variable"
@@ -245,7 +246,7 @@ def _newton(problem: _Problem, theta: np.ndarray) -> tuple[np.ndarray, _State, n
         except np.linalg.LinAlgError:
             step = -np.linalg.lstsq(state.hessian[0], state.gradient[0], rcond=None)[0][None]
         finite = np.isfinite(step)
-        done = done | (finite.all(axis=-1) & (np.abs(step).max(axis=-1) < _TOLERANCE))
+        done = done | (finite.all(axis=-1) & (np.abs(step).max(axis=-1) < _NEXT_STEP))
         if done.all():
             break
         step = np.where(done[:, None] | ~finite, 0.0, step)
