@@ -149,18 +149,24 @@ class _Problem:
     rows_t: np.ndarray  # (B, P, K I (J - 1))
     offset: np.ndarray  # (B, K, 1, J - 1): 0, -inf or +inf
     observed: np.ndarray  # (B, K, I, J): n > 0
-    occupied: np.ndarray  # (B, K, I, 1): the row has units
+    floor: np.ndarray  # (B, K, I, J): a valid pi exceeds it (0 where n > 0, -1e-12 in rows
+    #                    with units, -inf in rows without)
+    ends: tuple[np.ndarray, np.ndarray]  # zeros and ones (B, K, I, 1): F below and above all
     used: np.ndarray  # (B, P) bool
     unused: tuple[np.ndarray, np.ndarray]  # (table, slot) of slots fixed by an identity row
 
 
 def _problem(n: np.ndarray, x: np.ndarray, design: _Design) -> _Problem:
-    B, K, I, J = n.shape
+    B, K, size_x, J = n.shape
     rows_4d = design.alpha[:, :, None] - x[:, None, :, None, None] * design.beta[:, :, None]
-    rows = rows_4d.reshape(B, K * I * (J - 1), design.used.shape[1])
+    rows = rows_4d.reshape(B, K * size_x * (J - 1), design.used.shape[1])
+    observed = n > 0
+    occupied = n.sum(axis=-1, keepdims=True) > 0
+    floor = np.where(observed, 0.0, np.where(occupied, -1e-12, -np.inf))
+    ends = (np.zeros((B, K, size_x, 1)), np.ones((B, K, size_x, 1)))
     return _Problem(n, rows, rows_4d, np.ascontiguousarray(rows.transpose(0, 2, 1)),
-                    design.offset[:, :, None], n > 0, n.sum(axis=-1, keepdims=True) > 0,
-                    design.used, np.nonzero(~design.used))
+                    design.offset[:, :, None], observed, floor, ends, design.used,
+                    np.nonzero(~design.used))
 
 
 @dataclass
@@ -181,37 +187,27 @@ def _state(problem: _Problem, theta: np.ndarray) -> _State:
     ``g_m = f_m (X_m - X_(m+1))``, ``H_mm = f_m (1 - 2 F_m)(X_m - X_(m+1)) - f_m^2 (X_m/pi_m +
     X_(m+1)/pi_(m+1))`` and ``H_m,m+1 = f_m f_(m+1) X_(m+1)/pi_(m+1)``; the chain rule through
     the linear design gives those in ``theta`` (McCullagh 1980, sec. 6; Agresti 2010,
-    ch. 3). The tables are tiny, so the work is a few whole-array operations and three
+    ch. 3). The tables are tiny, so the work is a few whole-array operations and two
     matrix products (the Hessian of a row is tridiagonal in its linear predictors).
     """
-    n = problem.n
-    B = n.shape[0]
-    shape = problem.rows_4d.shape[:-1]  # (B, K, I, J - 1)
-    eta = (problem.rows @ theta[:, :, None]).reshape(shape) + problem.offset
+    n, A = problem.n, problem.rows_4d
+    eta = (problem.rows @ theta[:, :, None]).reshape(A.shape[:-1]) + problem.offset
     F = special.expit(eta)
     f = F * (1 - F)
-    padded = np.empty((*shape[:-1], shape[-1] + 2))
-    padded[..., 0] = 0.0
-    padded[..., -1] = 1.0
-    padded[..., 1:-1] = F
+    padded = np.concatenate((problem.ends[0], F, problem.ends[1]), axis=-1)
     pi = padded[..., 1:] - padded[..., :-1]
-    positive = pi > 0
-    bad = (problem.observed & ~positive) | (problem.occupied & ~(pi > -1e-12))
-    valid = ~bad.any(axis=(1, 2, 3))
-    safe = np.where(problem.observed & positive, pi, 1.0)
+    valid = (pi > problem.floor).all(axis=(1, 2, 3))
+    safe = np.where(problem.observed & (pi > 0), pi, 1.0)
     X = n / safe
-    loglik = (n * np.log(safe)).sum(axis=(1, 2, 3))
-    loglik = np.where(valid, loglik, -np.inf)
+    loglik = np.where(valid, (n * np.log(safe)).sum(axis=(1, 2, 3)), -np.inf)
     ratio = X / safe
     spread = X[..., :-1] - X[..., 1:]
-    g_eta = f * spread
-    h_diag = f * (1 - 2 * F) * spread - f**2 * (ratio[..., :-1] + ratio[..., 1:])
+    h_diag = f * ((1 - 2 * F) * spread - f * (ratio[..., :-1] + ratio[..., 1:]))
     h_off = (f[..., :-1] * f[..., 1:] * ratio[..., 1:-1])[..., None]
-    A = problem.rows_4d
     HA = h_diag[..., None] * A  # the tridiagonal H_eta times the design, row by row
     HA[..., :-1, :] += h_off * A[..., 1:, :]
     HA[..., 1:, :] += h_off * A[..., :-1, :]
-    gradient = (problem.rows_t @ g_eta.reshape(B, problem.rows.shape[1], 1))[..., 0]
+    gradient = (problem.rows_t @ (f * spread).reshape(problem.rows.shape[:-1] + (1,)))[..., 0]
     hessian = problem.rows_t @ HA.reshape(problem.rows.shape)
     hessian[problem.unused[0], problem.unused[1], problem.unused[1]] = -1.0
     return _State(loglik, gradient, hessian, pi, f, valid)
@@ -245,22 +241,22 @@ def _newton(problem: _Problem, theta: np.ndarray) -> tuple[np.ndarray, _State, n
             step = -np.linalg.solve(state.hessian, state.gradient[..., None])[..., 0]
         except np.linalg.LinAlgError:
             step = -np.linalg.lstsq(state.hessian[0], state.gradient[0], rcond=None)[0][None]
-        finite = np.isfinite(step)
-        done = done | (finite.all(axis=-1) & (np.abs(step).max(axis=-1) < _NEXT_STEP))
+        done |= np.abs(step).max(axis=-1) < _NEXT_STEP  # False where a step is not finite
         if done.all():
             break
-        step = np.where(done[:, None] | ~finite, 0.0, step)
+        step[done] = 0.0
+        step[~np.isfinite(step)] = 0.0
         scale = np.ones(theta.shape[0])
         for _ in range(_HALVINGS):
             trial = _state(problem, theta + scale[:, None] * step)
             worse = ~trial.valid | (trial.loglik < state.loglik - 1e-9 * np.abs(state.loglik))
             if not worse.any():
                 break
-            scale = np.where(worse, scale / 2, scale)
+            scale[worse] /= 2
         taken = scale[:, None] * step
         theta = theta + taken
         state = trial
-        done = done | (np.abs(taken).max(axis=-1) < _TOLERANCE)
+        done |= np.abs(taken).max(axis=-1) < _TOLERANCE
         if done.all():
             break
     return theta, state, done
