@@ -735,9 +735,9 @@ def cumulative_logit_frame(
     frame = inference_frame(keys, est, se, se, notes, crit=crit,
                             bounds=[(-np.inf, np.inf)] * len(keys))
     frame.index.name = "term"
-    frame.iloc[1:, frame.columns.get_loc("z")] = np.nan
-    frame.iloc[1:, frame.columns.get_loc("p_value")] = np.nan
-    frame.iloc[1:, frame.columns.get_loc("std_error_null")] = np.nan
+    blank = np.full(len(keys) - 1, np.nan)
+    for column in ("std_error_null", "z", "p_value"):  # a test of the slope only
+        frame[column] = np.concatenate([frame[column].to_numpy()[:1], blank])
     frame.attrs.update(
         deviance=fit.deviance,
         deviance_df=fit.deviance_df,
