@@ -22,7 +22,7 @@ import numpy as np
 import pandas as pd
 
 from .concordance import cell_concordance
-from .measure_table import inference_frame, interval_quantile, sampling_note
+from .measure_table import COLUMNS, _frame, inference_frame, interval_quantile, sampling_note
 from .ordinal_measures import Sampling, delta_variance
 from .scipy_special import special
 
@@ -735,9 +735,14 @@ def cumulative_logit_frame(
     frame = inference_frame(keys, est, se, se, notes, crit=crit,
                             bounds=[(-np.inf, np.inf)] * len(keys))
     frame.index.name = "term"
+    # a test of the slope only; the frame is rebuilt from its columns (setting columns of a
+    # frame in place splits its block of numbers, which costs more than building it)
     blank = np.full(len(keys) - 1, np.nan)
-    for column in ("std_error_null", "z", "p_value"):  # a test of the slope only
-        frame[column] = np.concatenate([frame[column].to_numpy()[:1], blank])
+    columns = [*frame.iloc[:, :-1].to_numpy(dtype=float, copy=True).T, frame["note"].array]
+    for name in ("std_error_null", "z", "p_value"):
+        position = COLUMNS.index(name)
+        columns[position] = np.concatenate([columns[position][:1], blank])
+    frame = _frame(columns, frame.index)
     frame.attrs.update(
         deviance=fit.deviance,
         deviance_df=fit.deviance_df,
