@@ -241,22 +241,27 @@ def _newton(problem: _Problem, theta: np.ndarray) -> tuple[np.ndarray, _State, n
             step = -np.linalg.solve(state.hessian, state.gradient[..., None])[..., 0]
         except np.linalg.LinAlgError:
             step = -np.linalg.lstsq(state.hessian[0], state.gradient[0], rcond=None)[0][None]
-        done |= np.abs(step).max(axis=-1) < _NEXT_STEP  # False where a step is not finite
+        size = np.abs(step).max(axis=-1)  # NaN where a step is not finite
+        done |= size < _NEXT_STEP
         if done.all():
             break
-        step[done] = 0.0
-        step[~np.isfinite(step)] = 0.0
-        scale = np.ones(theta.shape[0])
-        for _ in range(_HALVINGS):
-            trial = _state(problem, theta + scale[:, None] * step)
-            worse = ~trial.valid | (trial.loglik < state.loglik - 1e-9 * np.abs(state.loglik))
+        plain = not done.any() and bool(np.isfinite(size).all())
+        if not plain:
+            step = np.where(done[:, None] | ~np.isfinite(step), 0.0, step)
+        lowest = state.loglik - 1e-9 * np.abs(state.loglik)
+        trial = _state(problem, theta + step)
+        scale = None  # the full step unless some table halves it
+        for attempt in range(_HALVINGS):
+            worse = ~trial.valid | (trial.loglik < lowest)
             if not worse.any():
                 break
-            scale[worse] /= 2
-        taken = scale[:, None] * step
+            scale = np.where(worse, 0.5, 1.0) * (1.0 if scale is None else scale)
+            if attempt < _HALVINGS - 1:  # after the last halving the step is taken as it is
+                trial = _state(problem, theta + scale[:, None] * step)
+        taken = step if scale is None else scale[:, None] * step
         theta = theta + taken
         state = trial
-        done |= np.abs(taken).max(axis=-1) < _TOLERANCE
+        done |= (size if plain and scale is None else np.abs(taken).max(axis=-1)) < _TOLERANCE
         if done.all():
             break
     return theta, state, done
