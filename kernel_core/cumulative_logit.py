@@ -22,7 +22,14 @@ import numpy as np
 import pandas as pd
 
 from .concordance import cell_concordance
-from .measure_table import COLUMNS, _frame, inference_frame, interval_quantile, sampling_note
+from .measure_table import (
+    COLUMNS,
+    _frame,
+    _notes,
+    inference_frame,
+    interval_quantile,
+    sampling_note,
+)
 from .ordinal_measures import Sampling, delta_variance
 from .scipy_special import special
 
@@ -743,7 +750,8 @@ def cumulative_logit_frame(
     # a test of the slope only; the frame is rebuilt from its columns (setting columns of a
     # frame in place splits its block of numbers, which costs more than building it)
     blank = np.full(len(keys) - 1, np.nan)
-    columns = [*frame.iloc[:, :-1].to_numpy(dtype=float, copy=True).T, frame["note"].array]
+    columns = [*frame.iloc[:, :-1].to_numpy(dtype=float, copy=True).T,
+               _notes(frame["note"].tolist())]
     for name in ("std_error_null", "z", "p_value"):
         position = COLUMNS.index(name)
         columns[position] = np.concatenate([columns[position][:1], blank])
