@@ -22,7 +22,14 @@ import numpy as np
 import pandas as pd
 
 from .concordance import cell_concordance
-from .measure_table import inference_frame, interval_quantile, sampling_note
+from .measure_table import (
+    COLUMNS,
+    _frame,
+    _notes,
+    inference_frame,
+    interval_quantile,
+    sampling_note,
+)
 from .ordinal_measures import Sampling, delta_variance
 from .scipy_special import special
 
@@ -35,7 +42,8 @@ __all__ = [
 
 _MAX_ITERATIONS = 100
 _HALVINGS = 40
-_TOLERANCE = 1e-10
+_TOLERANCE = 1e-10  # a step taken this small ends the iteration (also after halvings)
+_NEXT_STEP = 1e-12  # a Newton step this small is not taken: the point is the estimate
 
 ONE_RESPONSE = "needs at least two non-empty categories of the response"
 ONE_SCORE = "needs at least two non-empty categories of the scored variable"
@@ -134,6 +142,40 @@ def _design(n: np.ndarray, separate: bool) -> _Design:
 
 
 # ------------------------------------------------------------------ likelihood pieces
+@dataclass(frozen=True)
+class _Problem:
+    """What a fit needs that does not depend on the parameters, computed once per fit.
+
+    ``rows`` is the design of each (level, category of x, cut): ``d eta / d theta``, shape
+    (B, K I (J - 1), P); ``rows_4d`` the same as (B, K, I, J - 1, P).
+    """
+
+    n: np.ndarray  # (B, K, I, J)
+    rows: np.ndarray
+    rows_4d: np.ndarray
+    rows_t: np.ndarray  # (B, P, K I (J - 1))
+    offset: np.ndarray  # (B, K, 1, J - 1): 0, -inf or +inf
+    observed: np.ndarray  # (B, K, I, J): n > 0
+    floor: np.ndarray  # (B, K, I, J): a valid pi exceeds it (0 where n > 0, -1e-12 in rows
+    #                    with units, -inf in rows without)
+    ends: tuple[np.ndarray, np.ndarray]  # zeros and ones (B, K, I, 1): F below and above all
+    used: np.ndarray  # (B, P) bool
+    unused: tuple[np.ndarray, np.ndarray]  # (table, slot) of slots fixed by an identity row
+
+
+def _problem(n: np.ndarray, x: np.ndarray, design: _Design) -> _Problem:
+    B, K, size_x, J = n.shape
+    rows_4d = design.alpha[:, :, None] - x[:, None, :, None, None] * design.beta[:, :, None]
+    rows = rows_4d.reshape(B, K * size_x * (J - 1), design.used.shape[1])
+    observed = n > 0
+    occupied = n.sum(axis=-1, keepdims=True) > 0
+    floor = np.where(observed, 0.0, np.where(occupied, -1e-12, -np.inf))
+    ends = (np.zeros((B, K, size_x, 1)), np.ones((B, K, size_x, 1)))
+    return _Problem(n, rows, rows_4d, np.ascontiguousarray(rows.transpose(0, 2, 1)),
+                    design.offset[:, :, None], observed, floor, ends, design.used,
+                    np.nonzero(~design.used))
+
+
 @dataclass
 class _State:
     loglik: np.ndarray  # (B,)
@@ -144,12 +186,7 @@ class _State:
     valid: np.ndarray  # (B,)
 
 
-def _rows(design: _Design, x: np.ndarray) -> np.ndarray:
-    """Design of each (level, category of x): ``d eta / d theta``, shape (B, K, I, J-1, P)."""
-    return design.alpha[:, :, None] - x[:, None, :, None, None] * design.beta[:, :, None]
-
-
-def _state(n: np.ndarray, x: np.ndarray, design: _Design, theta: np.ndarray) -> _State:
+def _state(problem: _Problem, theta: np.ndarray) -> _State:
     """Log-likelihood ``sum n log pi`` with its gradient and observed Hessian in ``theta``.
 
     With ``F_j = expit(eta_j)``, ``f_j = F_j (1 - F_j)``, ``pi_j = F_j - F_(j-1)`` and
@@ -157,39 +194,29 @@ def _state(n: np.ndarray, x: np.ndarray, design: _Design, theta: np.ndarray) -> 
     ``g_m = f_m (X_m - X_(m+1))``, ``H_mm = f_m (1 - 2 F_m)(X_m - X_(m+1)) - f_m^2 (X_m/pi_m +
     X_(m+1)/pi_(m+1))`` and ``H_m,m+1 = f_m f_(m+1) X_(m+1)/pi_(m+1)``; the chain rule through
     the linear design gives those in ``theta`` (McCullagh 1980, sec. 6; Agresti 2010,
-    ch. 3).
+    ch. 3). The tables are tiny, so the work is a few whole-array operations and two
+    matrix products (the Hessian of a row is tridiagonal in its linear predictors).
     """
-    A = _rows(design, x)
-    eta = (np.einsum("bkjp,bp->bkj", design.alpha, theta)[:, :, None]
-           - x[:, None, :, None] * np.einsum("bkjp,bp->bkj", design.beta, theta)[:, :, None]
-           + design.offset[:, :, None])
+    n, A = problem.n, problem.rows_4d
+    eta = (problem.rows @ theta[:, :, None]).reshape(A.shape[:-1]) + problem.offset
     F = special.expit(eta)
     f = F * (1 - F)
-    shape = (*F.shape[:-1], 1)
-    pi = np.diff(np.concatenate([np.zeros(shape), F, np.ones(shape)], axis=-1), axis=-1)
-    rows_with_units = n.sum(axis=-1, keepdims=True) > 0
-    valid = (np.where(n > 0, pi > 0, True) & np.where(rows_with_units, pi > -1e-12, True)).all(
-        axis=(1, 2, 3)
-    )
-    safe = np.where(n > 0, np.where(pi > 0, pi, 1.0), 1.0)
+    padded = np.concatenate((problem.ends[0], F, problem.ends[1]), axis=-1)
+    pi = padded[..., 1:] - padded[..., :-1]
+    valid = (pi > problem.floor).all(axis=(1, 2, 3))
+    safe = np.where(problem.observed & (pi > 0), pi, 1.0)
     X = n / safe
-    with np.errstate(divide="ignore"):
-        loglik = np.where(n > 0, n * np.log(safe), 0.0).sum(axis=(1, 2, 3))
-    loglik = np.where(valid, loglik, -np.inf)
-    lower, upper = X[..., :-1], X[..., 1:]
-    g_eta = f * (lower - upper)
-    h_diag = f * (1 - 2 * F) * (lower - upper) - f**2 * (lower / safe[..., :-1]
-                                                         + upper / safe[..., 1:])
-    h_off = f[..., :-1] * f[..., 1:] * X[..., 1:-1] / safe[..., 1:-1]
-    H_eta = np.zeros((*f.shape, f.shape[-1]))
-    m = np.arange(f.shape[-1])
-    H_eta[..., m, m] = h_diag
-    H_eta[..., m[:-1], m[1:]] = h_off
-    H_eta[..., m[1:], m[:-1]] = h_off
-    gradient = np.einsum("bkimp,bkim->bp", A, g_eta)
-    hessian = np.einsum("bkimp,bkimn,bkinq->bpq", A, H_eta, A)
-    unused = ~design.used
-    hessian[unused[:, :, None] & np.eye(theta.shape[-1], dtype=bool)] = -1.0
+    loglik = np.where(valid, (n * np.log(safe)).sum(axis=(1, 2, 3)), -np.inf)
+    ratio = X / safe
+    spread = X[..., :-1] - X[..., 1:]
+    h_diag = f * ((1 - 2 * F) * spread - f * (ratio[..., :-1] + ratio[..., 1:]))
+    h_off = (f[..., :-1] * f[..., 1:] * ratio[..., 1:-1])[..., None]
+    HA = h_diag[..., None] * A  # the tridiagonal H_eta times the design, row by row
+    HA[..., :-1, :] += h_off * A[..., 1:, :]
+    HA[..., 1:, :] += h_off * A[..., :-1, :]
+    gradient = (problem.rows_t @ (f * spread).reshape(problem.rows.shape[:-1] + (1,)))[..., 0]
+    hessian = problem.rows_t @ HA.reshape(problem.rows.shape)
+    hessian[problem.unused[0], problem.unused[1], problem.unused[1]] = -1.0
     return _State(loglik, gradient, hessian, pi, f, valid)
 
 
@@ -205,36 +232,45 @@ def _start(n: np.ndarray, design: _Design) -> np.ndarray:
     return theta
 
 
-def _newton(n: np.ndarray, x: np.ndarray, design: _Design,
-            theta: np.ndarray) -> tuple[np.ndarray, _State, np.ndarray]:
+def _newton(problem: _Problem, theta: np.ndarray) -> tuple[np.ndarray, _State, np.ndarray]:
     """Batched Newton-Raphson with step halving that keeps every fitted probability positive.
 
     The cumulative-logit log-likelihood is concave in the linear predictors (Pratt 1981,
     JASA 76:103), so Newton steps on the observed Hessian climb; halving guards the ordering
-    of the cut-points. Returns the estimates, the state there and a convergence flag.
+    of the cut-points. A table is done when its next Newton step (or the step just taken) is
+    below the tolerance in every parameter; the state of the last point reached is returned
+    as it is (no evaluation more). Returns the estimates, that state and a convergence flag.
     """
-    state = _state(n, x, design, theta)
+    state = _state(problem, theta)
     done = np.zeros(theta.shape[0], dtype=bool)
     for _ in range(_MAX_ITERATIONS):
         try:
             step = -np.linalg.solve(state.hessian, state.gradient[..., None])[..., 0]
         except np.linalg.LinAlgError:
             step = -np.linalg.lstsq(state.hessian[0], state.gradient[0], rcond=None)[0][None]
-        step = np.where(done[:, None] | ~np.isfinite(step), 0.0, step)
-        scale = np.ones(theta.shape[0])
-        for _ in range(_HALVINGS):
-            trial = _state(n, x, design, theta + scale[:, None] * step)
-            worse = ~trial.valid | (trial.loglik < state.loglik - 1e-9 * np.abs(state.loglik))
-            if not worse.any():
-                break
-            scale = np.where(worse, scale / 2, scale)
-        taken = scale[:, None] * step
-        theta = theta + taken
-        state = trial
-        done = done | (np.abs(taken).max(axis=-1) < _TOLERANCE)
+        size = np.abs(step).max(axis=-1)  # NaN where a step is not finite
+        done |= size < _NEXT_STEP
         if done.all():
             break
-    state = _state(n, x, design, theta)
+        plain = not done.any() and bool(np.isfinite(size).all())
+        if not plain:
+            step = np.where(done[:, None] | ~np.isfinite(step), 0.0, step)
+        lowest = state.loglik - 1e-9 * np.abs(state.loglik)
+        trial = _state(problem, theta + step)
+        scale = None  # the full step unless some table halves it
+        for attempt in range(_HALVINGS):
+            worse = ~trial.valid | (trial.loglik < lowest)
+            if not worse.any():
+                break
+            scale = np.where(worse, 0.5, 1.0) * (1.0 if scale is None else scale)
+            if attempt < _HALVINGS - 1:  # after the last halving the step is taken as it is
+                trial = _state(problem, theta + scale[:, None] * step)
+        taken = step if scale is None else scale[:, None] * step
+        theta = theta + taken
+        state = trial
+        done |= (size if plain and scale is None else np.abs(taken).max(axis=-1)) < _TOLERANCE
+        if done.all():
+            break
     return theta, state, done
 
 
@@ -253,8 +289,8 @@ def _inverse(hessian: np.ndarray, used: np.ndarray) -> np.ndarray:
     return np.where(used[:, :, None] & used[:, None, :], cov, np.nan)
 
 
-def _linearised_variances(n: np.ndarray, x: np.ndarray, design: _Design, state: _State,
-                          cov: np.ndarray, which: np.ndarray, sampling: Sampling) -> np.ndarray:
+def _linearised_variances(problem: _Problem, state: _State, cov: np.ndarray,
+                          which: np.ndarray, sampling: Sampling) -> np.ndarray:
     """Sandwich variances of the parameters ``which`` by the library's one variance rule.
 
     ``theta_hat`` solves ``sum n_kij s_kij(theta) = 0`` with ``s_kij = d log pi_kij / d theta``,
@@ -262,10 +298,10 @@ def _linearised_variances(n: np.ndarray, x: np.ndarray, design: _Design, state: 
     Stat. Rev. 51:279), and :func:`rankfold.ordinal_measures.delta_variance` of that gradient
     is the linearised variance (Woodruff 1971).
     """
-    A = _rows(design, x)
+    n = problem.n
     B, K, rows_x, J = n.shape
     rows = np.nan_to_num(cov[:, which, :])  # (B, Q, P): -H^-1 for these parameters
-    v = np.einsum("bkimp,bqp->bqkim", A, rows)
+    v = np.einsum("bkimp,bqp->bqkim", problem.rows_4d, rows)
     fv = state.density[:, None] * v
     shape = (*fv.shape[:-1], 1)
     padded = np.concatenate([np.zeros(shape), fv, np.zeros(shape)], axis=-1)
@@ -376,46 +412,54 @@ class _Fit:
 
 def _fit(n: np.ndarray, x: np.ndarray, sampling: Sampling, *, separate: bool,
          start: np.ndarray | None = None, theta: np.ndarray | None = None,
-         all_errors: bool = False) -> _Fit:
+         design: _Design | None = None, all_errors: bool = False) -> _Fit:
     """Fit the common-slope (or separate-slopes) model to every table of (B, K, I, J)."""
     x = np.asarray(x, dtype=float)
     reason = _reasons(n) if not separate else np.full(n.shape[0], "", dtype=object)
-    design = _design(n, separate)
+    design = _design(n, separate) if design is None else design
     if theta is None:
         theta = _start(n, design)
         if start is not None:
             theta[:, design.slope] = np.nan_to_num(start)
     ok = reason == ""
-    theta, state, converged = _newton(n[ok], x[ok], _subset(design, ok), theta[ok])
-    full = np.full((n.shape[0], design.used.shape[1]), np.nan)
-    full[ok] = theta
-    P = full.shape[1]
-    cov = np.full((n.shape[0], P, P), np.nan)
-    cov[ok] = _inverse(state.hessian, design.used[ok])
-    if sampling.squared is not None and ok.any():
+    every = bool(ok.all())
+    if every:
+        problem = _problem(n, x, design)
+    else:
+        problem = _problem(n[ok], x[ok], _subset(design, ok))
+        theta = theta[ok]
+        sampling = Sampling(None if sampling.squared is None else sampling.squared[ok],
+                            None if sampling.records is None
+                            else np.asarray(sampling.records)[ok])
+    theta, state, converged = _newton(problem, theta)
+    cov = _inverse(state.hessian, problem.used)
+    if sampling.squared is not None and theta.shape[0]:
+        P = theta.shape[1]
         which = np.arange(P) if all_errors else np.arange(design.slope, P)
-        part = Sampling(sampling.squared[ok], np.asarray(sampling.records)[ok])
-        var = _linearised_variances(n[ok], x[ok], _subset(design, ok), state, cov[ok],
-                                    which, part)
-        se = np.full((n.shape[0], P), np.nan)
-        sub = se[ok]
-        sub[:, which] = np.sqrt(var)
-        se[ok] = sub
+        se = np.full(theta.shape, np.nan)
+        se[:, which] = np.sqrt(_linearised_variances(problem, state, cov, which, sampling))
     else:
         with np.errstate(invalid="ignore"):
             se = np.sqrt(np.diagonal(cov, axis1=-2, axis2=-1))
+    fitted = (theta, cov, se, state.loglik, state.pi)
+    if not every:  # back to the whole batch, NaN where no fit was made
+        fitted = tuple(_spread(part, ok) for part in fitted)
+    theta, cov, se, loglik, pi = fitted
     se = np.where(design.used, se, np.nan)
     failed = np.zeros(n.shape[0], dtype=bool)
     failed[ok] = ~converged | ~np.isfinite(se[ok][:, design.slope])
     reason[failed] = NO_CONVERGENCE
-    loglik = np.full(n.shape[0], np.nan)
-    loglik[ok] = state.loglik
-    pi = np.full(n.shape, np.nan)
-    pi[ok] = state.pi
     defined = reason == ""
-    slope = np.where(defined, full[:, design.slope], np.nan)
+    slope = np.where(defined, theta[:, design.slope], np.nan)
     slope_se = np.where(defined, se[:, design.slope], np.nan)
-    return _Fit(full, cov, se, loglik, slope, slope_se, reason, design, pi)
+    return _Fit(theta, cov, se, loglik, slope, slope_se, reason, design, pi)
+
+
+def _spread(part: np.ndarray, ok: np.ndarray) -> np.ndarray:
+    """The rows ``part`` of the tables ``ok`` in a batch of all tables, NaN elsewhere."""
+    whole = np.full((ok.shape[0], *part.shape[1:]), np.nan)
+    whole[ok] = part
+    return whole
 
 
 def _subset(design: _Design, keep: np.ndarray) -> _Design:
@@ -620,7 +664,8 @@ def _tests(n: np.ndarray, x: np.ndarray, common: _Fit) -> tuple[dict[str, float]
     slope = separate_design.slope
     theta[:, :slope] = start[:, :slope]
     theta[:, slope:] = start[:, [common.design.slope]]
-    separate = _fit(n, x, Sampling(), separate=True, theta=np.nan_to_num(theta))
+    separate = _fit(n, x, Sampling(), separate=True, theta=np.nan_to_num(theta),
+                    design=separate_design)
     po_df = float(separate.design.used[0, slope:].sum() - 1)
     lr = float(2 * (separate.loglik[0] - common.loglik[0]))
     if po_df < 1:
@@ -702,9 +747,15 @@ def cumulative_logit_frame(
     frame = inference_frame(keys, est, se, se, notes, crit=crit,
                             bounds=[(-np.inf, np.inf)] * len(keys))
     frame.index.name = "term"
-    frame.iloc[1:, frame.columns.get_loc("z")] = np.nan
-    frame.iloc[1:, frame.columns.get_loc("p_value")] = np.nan
-    frame.iloc[1:, frame.columns.get_loc("std_error_null")] = np.nan
+    # a test of the slope only; the frame is rebuilt from its columns (setting columns of a
+    # frame in place splits its block of numbers, which costs more than building it)
+    blank = np.full(len(keys) - 1, np.nan)
+    columns = [*frame.iloc[:, :-1].to_numpy(dtype=float, copy=True).T,
+               _notes(frame["note"].tolist())]
+    for name in ("std_error_null", "z", "p_value"):
+        position = COLUMNS.index(name)
+        columns[position] = np.concatenate([columns[position][:1], blank])
+    frame = _frame(columns, frame.index)
     frame.attrs.update(
         deviance=fit.deviance,
         deviance_df=fit.deviance_df,

@@ -1,6 +1,10 @@
 """Speed of the polychoric and cumulative-logit fits over the 3,969 codings of a 7 x 7 sweep.
 
-Run: ``python tests/benchmarks/bench_latent.py``. The merged tables of every pair of codings
+Run: ``python tests/benchmarks/bench_latent.py``. First the one fit the explorer makes after
+every change, ``OrdinalTable.cumulative_logit()`` (slope, errors, deviance and the
+likelihood-ratio test against separate slopes) on the invented demo survey's 5 x 6 table,
+beside statsmodels' ``OrderedModel`` fitted to the same table's 20,000 records (the slope
+alone, no test). Then the sweep: the merged tables of every pair of codings
 (every way of merging adjacent categories into at least two, on both axes) are built with
 prefix sums and fitted batched, one call per collapsed shape, as the sweep would. Beside them,
 in the same run: the sweep of the existing measures alone, and a scipy-only loop (one
@@ -77,6 +81,39 @@ def scipy_cumulative_logit(n: np.ndarray) -> float:
     return optimize.minimize(minus, np.r_[-1.0, np.zeros(J - 2), 0.0], method="BFGS").x[-1]
 
 
+def explorer_fit() -> None:
+    """``table.cumulative_logit()`` on the demo table vs statsmodels on its records."""
+    import warnings
+
+    import pandas as pd
+    from statsmodels.miscmodels.ordinal_model import OrderedModel
+
+    table = rankfold.table(rankfold.demo.transit_survey(n=20000, seed=1), "trip_length",
+                           "service_rating")
+
+    def ours() -> None:
+        table._kept.clear()  # nothing kept from an earlier call
+        table.cumulative_logit()
+
+    ours()
+    mine = min(timed(lambda: [ours() for _ in range(50)]) for _ in range(7)) / 50
+    n = table.cells.sum(axis=0).astype(int)
+    rows, cols = np.indices(n.shape)
+    x = np.repeat(rows.ravel() + 1.0, n.ravel())
+    y = pd.Series(pd.Categorical(np.repeat(cols.ravel(), n.ravel()), ordered=True))
+
+    def reference() -> None:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            OrderedModel(y, x[:, None], distr="logit").fit(method="bfgs", disp=False)
+
+    other = min(timed(reference) for _ in range(3))
+    print(f"demo table {n.shape[0]} x {n.shape[1]}, {int(n.sum())} records")
+    print(f"  table.cumulative_logit()           {mine * 1e3:7.2f} ms  (slope, errors, tests)")
+    print(f"  statsmodels OrderedModel, records  {other * 1e3:7.2f} ms  "
+          f"ratio {other / mine:5.1f}x (slope alone)")
+
+
 def timed(run) -> float:
     start = time.perf_counter()
     run()
@@ -84,6 +121,7 @@ def timed(run) -> float:
 
 
 def main() -> None:
+    explorer_fit()
     counts = invented_counts(SIDE, seed=SIDE)
     table = rankfold.table_from_counts(counts.astype(int))
     batches = merged_batches(counts)
