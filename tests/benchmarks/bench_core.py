@@ -123,21 +123,25 @@ def table_versus_somersd(side: int) -> None:
 def without_polychoric(run, repeats: int) -> float:
     """Best time of ``run`` with the polychoric fit replaced by an undefined result, so the
     timing shows what the rest of ``measures()`` costs (the row is then NaN)."""
-    from rankfold import measure_table
+    from rankfold import measure_table, ordinal_table
 
-    real = measure_table.polychoric_arrays
+    # measures_frames fits batches; a table fits its own once (shared with tests())
+    fitting = (measure_table, ordinal_table)
+    real = [module.polychoric_arrays for module in fitting]
 
     def undefined(counts, *_args, **_kw):
-        size = len(counts)
-        return {"reason": np.full(size, "not fitted in this timing", dtype=object),
-                **{key: np.full(size, np.nan)
+        batch = np.shape(counts)[:-2]
+        return {"reason": np.full(batch, "not fitted in this timing", dtype=object),
+                **{key: np.full(batch, np.nan)
                    for key in ("estimate", "std_error", "std_error_null")}}
 
-    measure_table.polychoric_arrays = undefined
+    for module in fitting:
+        module.polychoric_arrays = undefined
     try:
         return best_time(run, repeats)
     finally:
-        measure_table.polychoric_arrays = real
+        for module, function in zip(fitting, real, strict=True):
+            module.polychoric_arrays = function
 
 
 def small_tables_versus_somersd() -> None:
