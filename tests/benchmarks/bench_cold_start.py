@@ -2,7 +2,8 @@
 
 Run: ``python tests/benchmarks/bench_cold_start.py`` (about a minute). Every figure is the best
 of several fresh processes, each started the same way, so the operating system's file cache is
-warm for all of them alike; the processor time of each process is printed too. Printed beside
+warm for all of them alike, and with Python's bytecode cache (as after ``pip install``, even
+where the environment turns writing it off); the processor time is printed too. Printed beside
 them: outside baselines measured in the same run, a process that only imports pandas (which
 rankfold needs anyway), one that only imports Altair, and one that also makes Altair's offline
 chart script (what any offline Altair widget costs).
@@ -32,6 +33,8 @@ OPEN_EXPLORER = (
 def fresh_process(code: str, cache: str) -> tuple[float, float]:
     """Wall time and processor time (user + system) of ``python -c code``, start to exit."""
     env = dict(os.environ, RANKFOLD_CACHE_DIR=cache)
+    # as after a pip install: modules load from their bytecode cache, written by the first run
+    env.pop("PYTHONDONTWRITEBYTECODE", None)
     used = resource.getrusage(resource.RUSAGE_CHILDREN)
     start = time.perf_counter()
     subprocess.run([sys.executable, "-c", code], check=True, env=env)
@@ -47,7 +50,8 @@ def best(code: str, cache: str) -> tuple[float, float]:
 
 def main() -> None:
     with tempfile.TemporaryDirectory() as cache:
-        first_open, _ = fresh_process(OPEN_EXPLORER, cache)  # bundles into the empty cache
+        first_open, _ = fresh_process(OPEN_EXPLORER, cache)  # bundles into the empty cache,
+        # and writes the bytecode of every module the later runs import
         rows = [
             ("python -c pass", best("pass", cache), None),
             ("import pandas (outside baseline)", best("import pandas", cache), None),
