@@ -239,10 +239,13 @@ def _newton(problem: _Problem, theta: np.ndarray) -> tuple[np.ndarray, _State, n
     JASA 76:103), so Newton steps on the observed Hessian climb; halving guards the ordering
     of the cut-points. A table is done when its next Newton step (or the step just taken) is
     below the tolerance in every parameter; the state of the last point reached is returned
-    as it is (no evaluation more). Returns the estimates, that state and a convergence flag.
+    as it is (no evaluation more). Returns the estimates, that state and a convergence flag,
+    False also where halving had to shrink a long step to nothing (the likelihood rises
+    towards the edge of valid probabilities: the model has no maximum inside it).
     """
     state = _state(problem, theta)
     done = np.zeros(theta.shape[0], dtype=bool)
+    stuck = np.zeros(theta.shape[0], dtype=bool)
     for _ in range(_MAX_ITERATIONS):
         try:
             step = -np.linalg.solve(state.hessian, state.gradient[..., None])[..., 0]
@@ -268,10 +271,14 @@ def _newton(problem: _Problem, theta: np.ndarray) -> tuple[np.ndarray, _State, n
         taken = step if scale is None else scale[:, None] * step
         theta = theta + taken
         state = trial
-        done |= (size if plain and scale is None else np.abs(taken).max(axis=-1)) < _TOLERANCE
+        moved = (size if plain and scale is None else np.abs(taken).max(axis=-1)) < _TOLERANCE
+        # Halvings that shrink a long Newton step to nothing mean the likelihood still rises
+        # beyond where the fitted probabilities stay valid: no maximum inside, not converged.
+        stuck |= moved & ~done & ~(size < _TOLERANCE)
+        done |= moved
         if done.all():
             break
-    return theta, state, done
+    return theta, state, done & ~stuck
 
 
 def _inverse(hessian: np.ndarray, used: np.ndarray) -> np.ndarray:

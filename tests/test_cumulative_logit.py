@@ -360,3 +360,30 @@ def test_random_tables_match_statsmodels(seed):
         tol = 1e-5 if scores is None else 1e-4
         assert fit.slope == pytest.approx(ref.params.iloc[0], rel=tol)
         assert fit.slope_se == pytest.approx(ref.bse.iloc[0], rel=tol)
+
+
+def test_no_proportional_odds_test_where_separate_slopes_have_no_valid_maximum():
+    # A sparse invented table (seeded) where the separate-slopes likelihood rises towards
+    # crossing cumulative probabilities. Outside evidence: McCullagh's (1980) likelihood as
+    # written above (it checks only the cells holding units) maximised by Nelder-Mead from the
+    # common-slope fit reaches a stationary point whose fitted probabilities are negative in
+    # some empty cell, so no valid model attains the supremum and the chi-square reference of
+    # the likelihood-ratio statistic does not hold: the test must be NaN with its reason.
+    rng = np.random.default_rng(5)
+    n = rng.multinomial(120, rng.dirichlet(np.full(16, 0.5))).reshape(1, 4, 4).astype(float)
+    x = np.arange(1.0, 5)
+    fit = cumulative_logit(n)
+    assert np.isfinite(fit.slope)  # the common slope is estimated as usual
+    assert np.isnan(fit.proportional_odds_statistic) and np.isnan(fit.proportional_odds_p_value)
+    assert "no maximum" in fit.test_note
+    common = optimize.minimize(lambda t: -controlled_loglik(t, n, x), np.r_[-1.0, 0.0, 1.0, 0.0],
+                               method="BFGS", options={"gtol": 1e-9})
+    start = np.r_[common.x[:-1], np.repeat(common.x[-1], 3)]
+    separate = optimize.minimize(lambda t: -controlled_loglik(t, n, x, separate=True), start,
+                                 method="Nelder-Mead",
+                                 options={"maxiter": 20000, "xatol": 1e-10, "fatol": 1e-12})
+    alpha, beta = separate.x[:3], separate.x[3:]
+    cumulative = special.expit(alpha[None, :] - x[:, None] * beta)
+    pi = np.diff(np.c_[np.zeros(4), cumulative, np.ones(4)], axis=1)
+    assert np.abs(complex_score(separate.x, n, x, separate=True)).max() < 1e-4  # stationary
+    assert pi.min() < -0.01  # ... only with a negative probability
