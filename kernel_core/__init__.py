@@ -33,7 +33,7 @@ from .overview import fill_coding_ranges, overview
 from .pair_regions import PairRegions, pair_regions
 from .steps import ExcludeStep, MergeStep, OrderStep, apply_steps
 
-__version__ = "0.2.0"
+__version__ = "0.3.0"
 
 __all__ = [
     "Diagnostics",
