@@ -19,7 +19,7 @@ million record frame takes about 1.5 GB while it is made). For each size it prin
     costs as much as a new coding).
 
 Each figure is the median and the fastest of many runs, with the median's ratio to somersd
-and the goal of issue 18 (15 ms). The data are invented (``rankfold.demo.transit_survey``,
+and the goal of 15 ms per change. The data are invented (``rankfold.demo.transit_survey``,
 seeded).
 """
 
