@@ -16,24 +16,11 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from .cell_sums import (  # noqa: F401  (_weights: imported from here)
-    _count_cells,
-    _count_lines,
-    _weights,
-    weight_column,
-    weight_problems,
-)
-from .column_coding import (  # noqa: F401  (imported from here by other modules)
-    MAX_NUMERIC_LEVELS,
-    MISSING_LABEL,
-    _python_scalar,
-    code_column,
-    column_rule,
-    raw_codes,
-)
+from .cell_sums import _count_cells, _count_lines, weight_column, weight_problems
+from .column_coding import _python_scalar, column_rule, raw_codes
 from .ordinal_table import OrdinalTable, Origin
 from .steps import OrderStep, label_list
-from .table_checks import (  # noqa: F401  (imported from here by other modules)
+from .table_checks import (
     _check_arguments,
     check_columns,
     check_total,
@@ -41,7 +28,7 @@ from .table_checks import (  # noqa: F401  (imported from here by other modules)
     refuse_unknown_keywords,
 )
 
-__all__ = ["table", "table_from_counts", "MAX_NUMERIC_LEVELS", "MISSING_LABEL"]
+__all__ = ["table", "table_from_counts"]
 
 
 #: Whole-number cell totals are kept as exact int64 while the table's total stays below this;

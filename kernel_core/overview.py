@@ -1,6 +1,6 @@
 """Every pair of ordered columns of a frame at once: one row of association figures per pair.
 
-Each column is coded once with :func:`rankfold.counting.code_column` (the ordering rules of
+Each column is coded once with :func:`rankfold.column_coding.code_column` (the ordering rules of
 :func:`rankfold.table`), every pair table is counted from those codes with
 :func:`numpy.bincount`, and pairs whose tables share a shape are measured in one batched call of
 the core's measure functions. The frame is never re-read per pair.
@@ -15,20 +15,16 @@ from itertools import combinations
 import numpy as np
 import pandas as pd
 
+from .cell_sums import _weights
 from .collapsing import _sparse_columns, rule_met, sweep
+from .column_coding import code_column
 from .control_variable import partial_design_note, partial_gamma_arrays
-from .counting import (
-    _weights,
-    check_columns,
-    check_total,
-    code_column,
-    refuse_unknown_keywords,
-)
 from .measure_table import _undefined_reasons, inference_frame, interval_quantile, sampling_note
 from .non_substantive import flagged_labels, off_scale_note
 from .ordinal_measures import ORDINAL_MEASURES, Sampling, ordinal_measure_arrays
 from .ordinal_table import OrdinalTable
 from .steps import label_list
+from .table_checks import check_columns, check_total, refuse_unknown_keywords
 
 __all__ = ["ADJUSTMENTS", "adjust_p_values", "coding_range", "fill_coding_ranges", "overview"]
 

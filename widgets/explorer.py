@@ -72,7 +72,7 @@ import ipywidgets as widgets
 import pandas as pd
 
 from rankfold import OrdinalTable
-from rankfold.counting import refuse_unknown_keywords
+from rankfold.table_checks import refuse_unknown_keywords
 
 from . import formatting
 from .category_editor import CategoryEditor, StepsPanel

@@ -9,7 +9,7 @@ from typing import TYPE_CHECKING
 import ipywidgets as widgets
 import pandas as pd
 
-from rankfold.counting import MAX_NUMERIC_LEVELS
+from rankfold.column_coding import MAX_NUMERIC_LEVELS
 
 if TYPE_CHECKING:
     from .render import Rendered
@@ -91,7 +91,7 @@ def orderable_columns(
 
     Decided from the column types and cheap checks, so that wide frames open at once: a numeric
     column is left out when a sample of its values (all of them when it is short) already shows
-    more than :data:`rankfold.counting.MAX_NUMERIC_LEVELS` distinct values; a long column whose
+    more than :data:`rankfold.column_coding.MAX_NUMERIC_LEVELS` distinct values; a long column whose
     sample shows fewer is offered, and counting says so if it has too many after all.
 
     Parameters
@@ -135,8 +135,8 @@ def control_columns(data: pd.DataFrame) -> list[str]:
     -------
     list of str
         In the frame's column order. A control variable needs no order (text is sorted), but
-        more than
-        :data:`rankfold.counting.MAX_NUMERIC_LEVELS` levels would give tables too small to read.
+        more than :data:`rankfold.column_coding.MAX_NUMERIC_LEVELS` levels would give tables
+        too small to read.
         Decided by the same cheap checks as :func:`orderable_columns`.
     """
     return [name for name in data.columns
